@@ -1,0 +1,76 @@
+"""Exceptions raised by vicino.
+
+Every exception derives from :class:`VicinoError`, and also from the
+built-in class that fits (``ValueError`` or ``TypeError``), so existing
+``except ValueError`` code keeps working. Errors that concern particular
+units carry ``positions`` (row numbers) and, where known, ``ids``.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "VicinoError",
+    "InvalidInputError",
+    "InvalidTypeError",
+    "InvalidParameterError",
+    "IdError",
+    "IslandError",
+    "InvalidMatrixError",
+    "InvalidValuesError",
+    "ConvergenceError",
+    "InternalError",
+    "DuplicateLocationWarning",
+]
+
+
+class VicinoError(Exception):
+    """Base class of every error raised by vicino."""
+
+    count: int = 0
+    positions: list[int] = []
+
+    def __init__(self, message: str = "", *, count: int = 0, positions=(), ids=()):
+        super().__init__(message)
+        self.count = count
+        self.positions = list(positions)
+        self.ids = list(ids)
+
+
+class InvalidInputError(VicinoError, ValueError):
+    """Locations or geometry that cannot be used: empty, NaN, wrong shape, out of range."""
+
+
+class InvalidTypeError(VicinoError, TypeError):
+    """Input of a type vicino cannot read (non-numeric data, unknown objects)."""
+
+
+class InvalidParameterError(VicinoError, ValueError):
+    """A parameter outside its allowed values (k, radius, metric, method, ...)."""
+
+
+class IdError(VicinoError, ValueError):
+    """Unit ids that are duplicated, of the wrong length, unknown or misaligned."""
+
+
+class IslandError(VicinoError, ValueError):
+    """Units without neighbours where the operation needs every unit to have some."""
+
+
+class InvalidMatrixError(VicinoError, ValueError):
+    """A weights matrix that is not square, finite and non-negative."""
+
+
+class InvalidValuesError(VicinoError, ValueError):
+    """Variable values that are NaN, constant, or of the wrong length."""
+
+
+class ConvergenceError(VicinoError, ValueError):
+    """An iterative computation did not converge for these weights."""
+
+
+class InternalError(VicinoError, RuntimeError):
+    """A bug in vicino; please report it with the input that caused it."""
+
+
+class DuplicateLocationWarning(UserWarning):
+    """Several units share one location."""

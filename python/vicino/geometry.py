@@ -1,0 +1,138 @@
+"""Input adapters: turn what users hold into coordinate arrays and ids.
+
+Points may be an (n, 2) array-like, a pandas DataFrame with coordinate
+columns, a GeoDataFrame / GeoSeries / pandas Series of point geometries, or a
+shapely array or list of points. Nothing here loops over units in Python.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from ._util import examples, make_ids
+from .errors import InvalidInputError, InvalidTypeError
+
+# Column pairs recognised without being named, tried in this order
+# (case-insensitive). The first of each pair is x / longitude.
+COORDINATE_COLUMNS = (
+    ("x", "y"),
+    ("lon", "lat"),
+    ("lng", "lat"),
+    ("long", "lat"),
+    ("longitude", "latitude"),
+    ("easting", "northing"),
+)
+
+
+def _is_geometry_array(values) -> bool:
+    """Whether ``values`` holds shapely geometries (without importing shapely needlessly)."""
+    arr = np.asarray(values, dtype=object) if not isinstance(values, np.ndarray) else values
+    if arr.dtype != object or arr.size == 0:
+        return False
+    first = next((v for v in arr.flat if v is not None), None)
+    return first is not None and type(first).__module__.startswith("shapely")
+
+
+def _points_from_geometry(values, index: pd.Index) -> np.ndarray:
+    try:
+        import shapely
+    except ImportError as exc:  # pragma: no cover - shapely is present when geometries are
+        raise InvalidTypeError("point geometries need shapely: pip install 'vicino[geometry]'") from exc
+    geoms = np.asarray(values, dtype=object)
+    if geoms.ndim != 1:
+        raise InvalidInputError("geometries must be a one-dimensional collection, one per unit")
+    missing = np.array([g is None for g in geoms.tolist()]) if geoms.size else np.zeros(0, bool)
+    if missing.any():
+        raise InvalidInputError(f"{int(missing.sum())} unit(s) have no geometry (None): ids {examples(index[missing])}")
+    kinds = shapely.get_type_id(geoms)
+    not_points = kinds != 0
+    if not_points.any():
+        names = shapely.get_type_id(geoms[not_points])
+        raise InvalidInputError(
+            f"{int(not_points.sum())} geometries are not points (type ids {sorted(set(names.tolist()))}), "
+            f"ids {examples(index[not_points])}; use their centroids (geoms.centroid) or a polygon builder"
+        )
+    empty = shapely.is_empty(geoms)
+    if empty.any():
+        raise InvalidInputError(f"{int(empty.sum())} point(s) are empty: ids {examples(index[empty])}; drop them first")
+    return np.column_stack([shapely.get_x(geoms), shapely.get_y(geoms)])
+
+
+def _numeric(block, what: str) -> np.ndarray:
+    try:
+        arr = np.asarray(block)
+    except Exception as exc:
+        raise InvalidTypeError(f"could not read {what} as numbers: {exc}") from exc
+    if arr.dtype.kind == "b":
+        raise InvalidTypeError(f"{what} are booleans; coordinates must be numbers")
+    if arr.dtype.kind not in "iuf":
+        try:
+            arr = arr.astype(np.float64)
+        except (TypeError, ValueError) as exc:
+            raise InvalidTypeError(
+                f"{what} must be numeric, got dtype {arr.dtype} ({exc}); convert them with pd.to_numeric"
+            ) from exc
+    return arr
+
+
+def _frame_columns(df: pd.DataFrame, columns) -> list:
+    if columns is not None:
+        cols = list(columns)
+        if len(cols) != 2:
+            raise InvalidInputError(f"columns must name two columns (x, y) or (longitude, latitude), got {cols}")
+        missing = [c for c in cols if c not in df.columns]
+        if missing:
+            raise InvalidInputError(f"columns {missing} are not in the DataFrame (it has {examples(list(df.columns))})")
+        return cols
+    lower = {str(c).lower(): c for c in df.columns}
+    for a, b in COORDINATE_COLUMNS:
+        if a in lower and b in lower:
+            return [lower[a], lower[b]]
+    if df.shape[1] == 2:
+        return list(df.columns)
+    raise InvalidInputError(
+        f"cannot tell which columns hold the coordinates among {examples(list(df.columns))}; "
+        "pass columns=(x_column, y_column)"
+    )
+
+
+def as_points(points, *, ids=None, columns=None) -> tuple[np.ndarray, pd.Index]:
+    """Coordinates as a C-contiguous float64 (n, 2) array, and unit ids.
+
+    Ids come from ``ids`` if given, else from the pandas index of the input,
+    else they are 0..n-1.
+    """
+    index = None
+    if isinstance(points, pd.DataFrame):
+        index = points.index
+        geometry = getattr(points, "geometry", None) if "geometry" in points.columns or hasattr(points, "crs") else None
+        if geometry is not None and columns is None:
+            xy = _points_from_geometry(np.asarray(geometry, dtype=object), index)
+        else:
+            cols = _frame_columns(points, columns)
+            xy = _numeric(points[cols].to_numpy(), f"columns {cols}")
+    elif isinstance(points, pd.Series):
+        index = points.index
+        if not _is_geometry_array(points.to_numpy()):
+            raise InvalidTypeError("a Series of points must hold point geometries; for coordinates pass a DataFrame")
+        xy = _points_from_geometry(points.to_numpy(), index)
+    else:
+        if columns is not None:
+            raise InvalidInputError("columns= applies only to DataFrame input")
+        if isinstance(points, (list, tuple)) and len(points) and type(points[0]).__module__.startswith("shapely"):
+            geoms = np.empty(len(points), dtype=object)
+            geoms[:] = list(points)
+            xy = _points_from_geometry(geoms, pd.RangeIndex(len(points)))
+        elif isinstance(points, np.ndarray) and _is_geometry_array(points):
+            xy = _points_from_geometry(points, pd.RangeIndex(len(points)))
+        else:
+            xy = _numeric(points, "coordinates")
+    if xy.ndim != 2 or xy.shape[1] != 2:
+        raise InvalidInputError(
+            f"points must have shape (n, 2), one row per unit with x and y (or longitude and latitude); got shape {xy.shape}"
+        )
+    if xy.shape[0] == 0:
+        raise InvalidInputError("no points were given; pass at least two locations")
+    units = make_ids(ids, xy.shape[0], index)
+    return np.ascontiguousarray(xy, dtype=np.float64), units

@@ -1,0 +1,276 @@
+//! The sparse graph type: a square matrix in canonical compressed sparse row
+//! form (row pointers `indptr`, column `indices` sorted within each row with no
+//! repeats, `data`), with `i64` pointers and indices so that SciPy can wrap the
+//! buffers without copying.
+//!
+//! [`Csr`] owns its buffers; [`CsrRef`] borrows them (from NumPy, without a
+//! copy). Full structural validation is delegated to `sprs`, whose matrix type
+//! is also used for the transposes and sums that the statistics need.
+//! Validation is O(nnz); every other constructor here is O(n) or cheaper.
+
+use crate::error::{Error, Result};
+use rayon::prelude::*;
+
+/// Below this many stored entries, loops stay serial.
+pub const PARALLEL_MIN_NNZ: usize = 1 << 15;
+
+/// A borrowed canonical CSR matrix of shape (n, n).
+#[derive(Debug, Clone, Copy)]
+pub struct CsrRef<'a> {
+    n: usize,
+    indptr: &'a [i64],
+    indices: &'a [i64],
+    data: &'a [f64],
+}
+
+/// An owned canonical CSR matrix of shape (n, n).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Csr {
+    n: usize,
+    indptr: Vec<i64>,
+    indices: Vec<i64>,
+    data: Vec<f64>,
+}
+
+fn check_shape(n: usize, indptr: &[i64], indices: &[i64], data: &[f64]) -> Result<()> {
+    if indptr.len() != n + 1 {
+        return Err(Error::InvalidMatrix {
+            reason: format!("indptr has length {} but n + 1 = {}", indptr.len(), n + 1),
+        });
+    }
+    if indices.len() != data.len() {
+        return Err(Error::InvalidMatrix {
+            reason: format!("{} indices but {} data values", indices.len(), data.len()),
+        });
+    }
+    if indptr[0] != 0 || indptr[n] != indices.len() as i64 {
+        return Err(Error::InvalidMatrix {
+            reason: "indptr must start at 0 and end at the number of stored entries".into(),
+        });
+    }
+    Ok(())
+}
+
+impl<'a> CsrRef<'a> {
+    /// Borrow buffers that are known to be canonical (built by this crate, or
+    /// validated once with [`CsrRef::validated`]). Checks only the O(1) shape
+    /// facts; indexing stays bounds-checked, so a broken buffer can give an
+    /// error or a panic but never undefined behaviour.
+    pub fn trusted(n: usize, indptr: &'a [i64], indices: &'a [i64], data: &'a [f64]) -> Result<Self> {
+        check_shape(n, indptr, indices, data)?;
+        Ok(Self { n, indptr, indices, data })
+    }
+
+    /// Borrow buffers after a full check: canonical structure (via `sprs`),
+    /// finite and non-negative weights. O(nnz).
+    pub fn validated(n: usize, indptr: &'a [i64], indices: &'a [i64], data: &'a [f64]) -> Result<Self> {
+        check_shape(n, indptr, indices, data)?;
+        sprs::CsMatViewI::<f64, i64, i64>::try_new((n, n), indptr, indices, data)
+            .map_err(|e| Error::InvalidMatrix { reason: e.3.to_string() })?;
+        let this = Self { n, indptr, indices, data };
+        for row in 0..n {
+            let (cols, vals) = this.row(row);
+            for (&c, &v) in cols.iter().zip(vals) {
+                if !v.is_finite() {
+                    return Err(Error::NonFiniteWeight { row, col: c as usize, value: v });
+                }
+                if v < 0.0 {
+                    return Err(Error::NegativeWeight { row, col: c as usize, value: v });
+                }
+            }
+        }
+        Ok(this)
+    }
+
+    /// Number of units (rows and columns).
+    pub fn n(&self) -> usize {
+        self.n
+    }
+    /// Number of stored entries.
+    pub fn nnz(&self) -> usize {
+        self.data.len()
+    }
+    pub fn indptr(&self) -> &'a [i64] {
+        self.indptr
+    }
+    pub fn indices(&self) -> &'a [i64] {
+        self.indices
+    }
+    pub fn data(&self) -> &'a [f64] {
+        self.data
+    }
+
+    /// Column indices and weights of row `i`.
+    #[inline]
+    pub fn row(&self, i: usize) -> (&'a [i64], &'a [f64]) {
+        let (a, b) = (self.indptr[i] as usize, self.indptr[i + 1] as usize);
+        (&self.indices[a..b], &self.data[a..b])
+    }
+
+    /// Stored entries per row.
+    pub fn counts(&self) -> Vec<usize> {
+        self.indptr.windows(2).map(|w| (w[1] - w[0]) as usize).collect()
+    }
+
+    /// Rows with no stored entry of positive weight: units without neighbours.
+    pub fn islands(&self) -> Vec<usize> {
+        (0..self.n)
+            .filter(|&i| self.row(i).1.iter().all(|&v| v == 0.0))
+            .collect()
+    }
+
+    /// Sum of each row.
+    pub fn row_sums(&self) -> Vec<f64> {
+        self.map_rows(|_, _, vals| vals.iter().sum())
+    }
+
+    /// Sum of each column.
+    pub fn col_sums(&self) -> Vec<f64> {
+        let mut out = vec![0.0; self.n];
+        for (&c, &v) in self.indices.iter().zip(self.data) {
+            out[c as usize] += v;
+        }
+        out
+    }
+
+    /// Apply `f(row, cols, vals)` to every row, in parallel above a size
+    /// threshold. The output order is the row order whatever the thread count.
+    pub fn map_rows<T, F>(&self, f: F) -> Vec<T>
+    where
+        T: Send,
+        F: Fn(usize, &[i64], &[f64]) -> T + Sync,
+    {
+        let one = |i: usize| {
+            let (c, v) = self.row(i);
+            f(i, c, v)
+        };
+        if self.nnz() >= PARALLEL_MIN_NNZ {
+            (0..self.n).into_par_iter().map(one).collect()
+        } else {
+            (0..self.n).map(one).collect()
+        }
+    }
+
+    /// The same structure with new data.
+    pub fn with_data(&self, data: Vec<f64>) -> Csr {
+        debug_assert_eq!(data.len(), self.nnz());
+        Csr { n: self.n, indptr: self.indptr.to_vec(), indices: self.indices.to_vec(), data }
+    }
+
+    /// As a `sprs` view, for the algebra that `sprs` provides.
+    pub fn as_sprs(&self) -> sprs::CsMatViewI<'a, f64, i64, i64> {
+        // SAFETY: every `CsrRef` is either validated or built from canonical
+        // buffers of this crate; `sprs` indexes with bounds checks in the
+        // operations used here (transpose, addition).
+        unsafe { sprs::CsMatViewI::new_unchecked(sprs::CompressedStorage::CSR, (self.n, self.n), self.indptr, self.indices, self.data) }
+    }
+
+    /// The transpose, as canonical CSR. O(n + nnz).
+    pub fn transpose(&self) -> Csr {
+        Csr::from_sprs(self.as_sprs().transpose_view().to_csr())
+    }
+
+    /// W + W^T as canonical CSR (entries present in either).
+    pub fn plus_transpose(&self) -> Csr {
+        let a = self.as_sprs();
+        let t = a.transpose_view().to_csr();
+        Csr::from_sprs(&a + &t)
+    }
+
+    /// Whether w_ij == w_ji for every pair.
+    pub fn is_symmetric(&self) -> bool {
+        let t = self.transpose();
+        t.indptr == self.indptr && t.indices == self.indices && t.data == self.data
+    }
+
+    /// Copy into an owned matrix.
+    pub fn to_owned(&self) -> Csr {
+        self.with_data(self.data.to_vec())
+    }
+}
+
+impl Csr {
+    /// Own buffers after the full check of [`CsrRef::validated`].
+    pub fn new(n: usize, indptr: Vec<i64>, indices: Vec<i64>, data: Vec<f64>) -> Result<Self> {
+        CsrRef::validated(n, &indptr, &indices, &data)?;
+        Ok(Self { n, indptr, indices, data })
+    }
+
+    /// Build from per-row lists of `(column, value)`, sorting each row by
+    /// column. Rows must not repeat a column.
+    pub fn from_rows(rows: Vec<Vec<(usize, f64)>>) -> Self {
+        let n = rows.len();
+        let mut indptr = Vec::with_capacity(n + 1);
+        indptr.push(0i64);
+        let nnz: usize = rows.iter().map(Vec::len).sum();
+        let mut indices = Vec::with_capacity(nnz);
+        let mut data = Vec::with_capacity(nnz);
+        for mut r in rows {
+            r.sort_unstable_by_key(|&(c, _)| c);
+            for (c, v) in r {
+                indices.push(c as i64);
+                data.push(v);
+            }
+            indptr.push(indices.len() as i64);
+        }
+        Self { n, indptr, indices, data }
+    }
+
+    fn from_sprs(m: sprs::CsMatI<f64, i64, i64>) -> Self {
+        let n = m.rows();
+        let (indptr, indices, data) = m.into_raw_storage();
+        Self { n, indptr, indices, data }
+    }
+
+    /// Borrow.
+    pub fn view(&self) -> CsrRef<'_> {
+        CsrRef { n: self.n, indptr: &self.indptr, indices: &self.indices, data: &self.data }
+    }
+
+    /// Give the buffers away: (indptr, indices, data).
+    pub fn into_parts(self) -> (Vec<i64>, Vec<i64>, Vec<f64>) {
+        (self.indptr, self.indices, self.data)
+    }
+
+    pub fn n(&self) -> usize {
+        self.n
+    }
+    pub fn data(&self) -> &[f64] {
+        &self.data
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn validation_rejects_unsorted_and_negative() {
+        assert!(Csr::new(2, vec![0, 2, 2], vec![1, 0], vec![1.0, 1.0]).is_err());
+        assert!(matches!(
+            Csr::new(2, vec![0, 1, 1], vec![1], vec![-1.0]),
+            Err(Error::NegativeWeight { row: 0, col: 1, .. })
+        ));
+        assert!(matches!(
+            Csr::new(2, vec![0, 1, 1], vec![1], vec![f64::NAN]),
+            Err(Error::NonFiniteWeight { .. })
+        ));
+        assert!(Csr::new(2, vec![0, 1, 2], vec![1, 0], vec![1.0, 2.0]).is_ok());
+    }
+
+    #[test]
+    fn transpose_and_symmetry() {
+        let m = Csr::from_rows(vec![vec![(1, 2.0)], vec![], vec![(0, 1.0), (1, 3.0)]]);
+        let t = m.view().transpose();
+        // Dense check by hand: W = [[0,2,0],[0,0,0],[1,3,0]] so W^T rows are
+        // [[0,0,1],[2,0,3],[0,0,0]].
+        assert_eq!(t.indptr, vec![0, 1, 3, 3]);
+        assert_eq!(t.indices, vec![2, 0, 2]);
+        assert_eq!(t.data, vec![1.0, 2.0, 3.0]);
+        assert!(!m.view().is_symmetric());
+        let s = m.view().plus_transpose();
+        assert!(s.view().is_symmetric());
+        assert_eq!(s.view().islands(), Vec::<usize>::new());
+        assert_eq!(m.view().islands(), vec![1]);
+    }
+}

@@ -1,0 +1,106 @@
+//! Errors of the core. Every variant carries the values that explain it, so the
+//! binding can build a message that says what is wrong and what to do.
+
+use thiserror::Error;
+
+/// Which axis of a coordinate pair a message talks about.
+pub fn axis_name(axis: usize) -> &'static str {
+    if axis == 0 {
+        "x / longitude"
+    } else {
+        "y / latitude"
+    }
+}
+
+/// Everything the core can refuse.
+#[derive(Debug, Clone, PartialEq, Error)]
+pub enum Error {
+    #[error("no units were given; pass at least two locations")]
+    Empty,
+    #[error("coordinates must come as pairs: got {len} numbers, which is not a multiple of 2")]
+    OddCoordinates { len: usize },
+    #[error(
+        "coordinate {} of unit at position {index} is {value}; coordinates must be finite \
+         (drop or impute units with missing locations first)",
+        axis_name(*axis)
+    )]
+    NonFiniteCoordinate { index: usize, axis: usize, value: f64 },
+    #[error(
+        "coordinate {} of unit at position {index} is {value:e}; coordinates larger than 1e150 \
+         in magnitude overflow squared distances: rescale them (for example to kilometres)",
+        axis_name(*axis)
+    )]
+    CoordinateTooLarge { index: usize, axis: usize, value: f64 },
+    #[error(
+        "latitude of unit at position {index} is {value}, outside [-90, 90]; \
+         great_circle expects (longitude, latitude) in degrees, in that order"
+    )]
+    LatitudeOutOfRange { index: usize, value: f64 },
+    #[error(
+        "longitude of unit at position {index} is {value}, outside [-180, 360]; \
+         great_circle expects (longitude, latitude) in degrees, in that order"
+    )]
+    LongitudeOutOfRange { index: usize, value: f64 },
+    #[error("k = {k} is not possible with {n} units: k must be at least 1 and at most n - 1")]
+    InvalidK { k: usize, n: usize },
+    #[error("radius = {radius} is not usable: give a finite number >= 0 in the units of the distance")]
+    InvalidRadius { radius: f64 },
+    #[error("unknown metric {name:?}: use \"euclidean\" or \"great_circle\"")]
+    UnknownMetric { name: String },
+    #[error(
+        "unknown standardization {name:?}: use one of \"row\", \"binary\", \"max_entry\", \
+         \"max_eigenvalue\", \"global\", \"variance_stabilizing\", \"none\""
+    )]
+    UnknownStandardization { name: String },
+    #[error("unknown alternative {name:?}: use \"two-sided\", \"greater\" or \"less\"")]
+    UnknownAlternative { name: String },
+    #[error(
+        "{count} unit(s) have no neighbours (islands), first at positions {first:?}; \
+         pass islands=\"keep\" to leave their rows empty, or choose weights that reach them"
+    )]
+    Islands { count: usize, first: Vec<usize> },
+    #[error("the weights have no links, or all weights are zero: {what} is undefined")]
+    NoWeight { what: &'static str },
+    #[error("{what} has length {got} but the weights have {expected} units")]
+    LengthMismatch { what: &'static str, expected: usize, got: usize },
+    #[error("{count} value(s) are NaN or infinite, first at positions {first:?}; drop or impute them first")]
+    NonFiniteValues { count: usize, first: Vec<usize> },
+    #[error("the values are constant (zero variance): spatial autocorrelation is undefined")]
+    ConstantValues,
+    #[error("{what} needs at least {need} units, got {n}")]
+    TooFewUnits { what: &'static str, need: usize, n: usize },
+    #[error("the matrix is not a valid sparse matrix: {reason}")]
+    InvalidMatrix { reason: String },
+    #[error("the matrix must be square, got shape ({rows}, {cols})")]
+    NotSquare { rows: usize, cols: usize },
+    #[error("weight at row {row}, column {col} is {value}; weights must be finite")]
+    NonFiniteWeight { row: usize, col: usize, value: f64 },
+    #[error("weight at row {row}, column {col} is {value}; weights must be >= 0")]
+    NegativeWeight { row: usize, col: usize, value: f64 },
+    #[error(
+        "the largest eigenvalue did not converge in {iterations} iterations \
+         (last estimate {estimate}); use \"max_entry\" or \"row\" instead, or report this case"
+    )]
+    NotConverged { iterations: usize, estimate: f64 },
+}
+
+/// Result type of the core.
+pub type Result<T> = std::result::Result<T, Error>;
+
+/// Up to this many positions are named in a message.
+pub const FIRST_FEW: usize = 10;
+
+/// The first few positions for which `bad` holds, and how many there are.
+pub fn first_positions(len: usize, bad: impl Fn(usize) -> bool) -> (usize, Vec<usize>) {
+    let mut count = 0;
+    let mut first = Vec::new();
+    for i in 0..len {
+        if bad(i) {
+            count += 1;
+            if first.len() < FIRST_FEW {
+                first.push(i);
+            }
+        }
+    }
+    (count, first)
+}

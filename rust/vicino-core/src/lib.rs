@@ -1,0 +1,18 @@
+//! vicino-core: spatial weights without Python.
+//!
+//! Build who-neighbours-whom graphs from locations ([`neighbors`]), bring
+//! them to a standard scale ([`standardize`]), and use them: spatial lags
+//! ([`lag`]) and global autocorrelation statistics ([`stats`]). Every
+//! matrix is a canonical CSR ([`csr`]). Parallel work uses rayon above size
+//! thresholds and never changes a result with the number of threads.
+
+pub mod csr;
+pub mod error;
+pub mod lag;
+pub mod neighbors;
+pub mod spectral;
+pub mod standardize;
+pub mod stats;
+
+pub use csr::{Csr, CsrRef};
+pub use error::{Error, Result};

@@ -1,0 +1,25 @@
+//! vicino._core: the Python binding of vicino-core. It only converts
+//! buffers, releases the GIL around core calls (see `errors::run`) and maps
+//! errors; all computation lives in the core crate.
+
+mod convert;
+mod errors;
+mod neighbors;
+mod stats;
+mod weights;
+
+use pyo3::prelude::*;
+
+#[pymodule]
+fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
+    m.add("EARTH_RADIUS_KM", vicino_core::neighbors::EARTH_RADIUS_KM)?;
+    m.add_function(wrap_pyfunction!(neighbors::k_nearest, m)?)?;
+    m.add_function(wrap_pyfunction!(neighbors::within_distance, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::validate, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::standardize, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::spectral_radius, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::lag_vector, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::lag_columns, m)?)?;
+    m.add_function(wrap_pyfunction!(stats::moran, m)?)?;
+    Ok(())
+}

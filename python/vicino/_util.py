@@ -8,7 +8,7 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
-from .errors import IdError, InvalidParameterError, VicinoError
+from .errors import IdError, InvalidParameterError, InvalidParameterTypeError, VicinoError
 
 SHOW = 5  # how many ids a message names
 
@@ -23,8 +23,10 @@ def examples(items: Sequence, limit: int = SHOW) -> str:
 
 def whole_number(value, name: str, *, minimum: int | None = None) -> int:
     """Check that ``value`` is an integer (not a bool or float) and return it."""
-    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Integral):
-        raise InvalidParameterError(f"{name} must be a whole number (int), got {value!r} of type {type(value).__name__}")
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
+        raise InvalidParameterTypeError(f"{name} must be a whole number (int), got {value!r} of type {type(value).__name__}")
+    if not isinstance(value, numbers.Integral):
+        raise InvalidParameterError(f"{name} must be a whole number (int), got {value!r}")
     value = int(value)
     if minimum is not None and value < minimum:
         raise InvalidParameterError(f"{name} must be at least {minimum}, got {value}")
@@ -34,7 +36,7 @@ def whole_number(value, name: str, *, minimum: int | None = None) -> int:
 def real_number(value, name: str) -> float:
     """Check that ``value`` is a real number (not a bool) and return it as float."""
     if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
-        raise InvalidParameterError(f"{name} must be a number, got {value!r} of type {type(value).__name__}")
+        raise InvalidParameterTypeError(f"{name} must be a number, got {value!r} of type {type(value).__name__}")
     return float(value)
 
 

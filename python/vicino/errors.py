@@ -13,6 +13,7 @@ __all__ = [
     "InvalidInputError",
     "InvalidTypeError",
     "InvalidParameterError",
+    "InvalidParameterTypeError",
     "IdError",
     "IslandError",
     "InvalidMatrixError",
@@ -46,6 +47,13 @@ class InvalidTypeError(VicinoError, TypeError):
 
 class InvalidParameterError(VicinoError, ValueError):
     """A parameter outside its allowed values (k, radius, metric, method, ...)."""
+
+
+class InvalidParameterTypeError(InvalidParameterError, TypeError):
+    """A parameter of the wrong type (a string or bool where a number belongs, ...).
+
+    It is both a ``ValueError`` and a ``TypeError``, so either ``except`` catches it.
+    """
 
 
 class IdError(VicinoError, ValueError):

@@ -66,6 +66,14 @@ def _numeric(block, what: str) -> np.ndarray:
         raise InvalidTypeError(f"could not read {what} as numbers: {exc}") from exc
     if arr.dtype.kind == "b":
         raise InvalidTypeError(f"{what} are booleans; coordinates must be numbers")
+    if arr.dtype.kind in "US" or (
+        arr.dtype.kind == "O"
+        and pd.api.types.infer_dtype(arr.ravel(), skipna=False) not in ("integer", "floating", "mixed-integer-float", "decimal")
+    ):
+        found = "text" if arr.dtype.kind in "US" else pd.api.types.infer_dtype(arr.ravel(), skipna=False)
+        raise InvalidTypeError(
+            f"{what} are not all numbers (found {found}); convert them first, e.g. with pd.to_numeric"
+        )
     if arr.dtype.kind not in "iuf":
         try:
             arr = arr.astype(np.float64)

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import html
 from dataclasses import dataclass, field
+from types import MappingProxyType
 from typing import Any, Mapping
 
 import numpy as np
@@ -25,6 +26,10 @@ class Step:
 
     action: str
     params: Mapping[str, Any] = field(default_factory=dict)
+
+    def __post_init__(self):
+        # a read-only copy, so a recipe cannot be rewritten after the fact
+        object.__setattr__(self, "params", MappingProxyType(dict(self.params)))
 
     def __str__(self) -> str:
         args = ", ".join(f"{k}={v!r}" for k, v in self.params.items())
@@ -74,6 +79,9 @@ class Weights:
     def __setattr__(self, name, value):
         raise AttributeError("Weights are immutable; operations return new Weights")
 
+    def __delattr__(self, name):
+        raise AttributeError("Weights are immutable; operations return new Weights")
+
     # ---- basic facts -------------------------------------------------
     @property
     def n(self) -> int:
@@ -102,9 +110,15 @@ class Weights:
         return self._ids[np.diff(self._indptr) == 0]
 
     @property
+    def self_links(self) -> int:
+        """Number of units linked to themselves (non-zero diagonal)."""
+        rows = np.repeat(np.arange(self.n), np.diff(self._indptr))
+        return int((rows == self._indices).sum())
+
+    @property
     def density(self) -> float:
-        """Share of all ordered pairs of distinct units that are linked."""
-        return self.nnz / (self.n * (self.n - 1)) if self.n > 1 else 0.0
+        """Share of all ordered pairs of distinct units that are linked (self-links not counted)."""
+        return (self.nnz - self.self_links) / (self.n * (self.n - 1)) if self.n > 1 else 0.0
 
     @property
     def duplicate_locations(self) -> int:

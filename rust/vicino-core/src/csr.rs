@@ -157,24 +157,61 @@ impl<'a> CsrRef<'a> {
         Csr { n: self.n, indptr: self.indptr.to_vec(), indices: self.indices.to_vec(), data }
     }
 
-    /// As a `sprs` view, for the algebra that `sprs` provides.
-    pub fn as_sprs(&self) -> sprs::CsMatViewI<'a, f64, i64, i64> {
-        // SAFETY: every `CsrRef` is either validated or built from canonical
-        // buffers of this crate; `sprs` indexes with bounds checks in the
-        // operations used here (transpose, addition).
-        unsafe { sprs::CsMatViewI::new_unchecked(sprs::CompressedStorage::CSR, (self.n, self.n), self.indptr, self.indices, self.data) }
-    }
-
-    /// The transpose, as canonical CSR. O(n + nnz).
+    /// The transpose, as canonical CSR, by a counting sort on columns:
+    /// O(n + nnz), and rows come out sorted because rows are visited in order.
     pub fn transpose(&self) -> Csr {
-        Csr::from_sprs(self.as_sprs().transpose_view().to_csr())
+        let n = self.n;
+        let mut indptr = vec![0i64; n + 1];
+        for &c in self.indices {
+            indptr[c as usize + 1] += 1;
+        }
+        for i in 0..n {
+            indptr[i + 1] += indptr[i];
+        }
+        let mut next: Vec<usize> = indptr[..n].iter().map(|&p| p as usize).collect();
+        let mut indices = vec![0i64; self.nnz()];
+        let mut data = vec![0.0; self.nnz()];
+        for i in 0..n {
+            let (c, v) = self.row(i);
+            for (&j, &x) in c.iter().zip(v) {
+                let slot = &mut next[j as usize];
+                indices[*slot] = i as i64;
+                data[*slot] = x;
+                *slot += 1;
+            }
+        }
+        Csr { n, indptr, indices, data }
     }
 
-    /// W + W^T as canonical CSR (entries present in either).
+    /// W + W^T as canonical CSR (entries present in either), merging each
+    /// row of W with the same row of W^T. O(n + nnz).
     pub fn plus_transpose(&self) -> Csr {
-        let a = self.as_sprs();
-        let t = a.transpose_view().to_csr();
-        Csr::from_sprs(&a + &t)
+        let t = self.transpose();
+        let tv = t.view();
+        let mut indptr = Vec::with_capacity(self.n + 1);
+        indptr.push(0i64);
+        let mut indices = Vec::with_capacity(2 * self.nnz());
+        let mut data = Vec::with_capacity(2 * self.nnz());
+        for i in 0..self.n {
+            let (ac, av) = self.row(i);
+            let (bc, bv) = tv.row(i);
+            let (mut p, mut q) = (0, 0);
+            while p < ac.len() || q < bc.len() {
+                let take_a = q == bc.len() || (p < ac.len() && ac[p] <= bc[q]);
+                let take_b = p == ac.len() || (q < bc.len() && bc[q] <= ac[p]);
+                let (col, val) = match (take_a, take_b) {
+                    (true, true) => (ac[p], av[p] + bv[q]),
+                    (true, false) => (ac[p], av[p]),
+                    _ => (bc[q], bv[q]),
+                };
+                p += take_a as usize;
+                q += take_b as usize;
+                indices.push(col);
+                data.push(val);
+            }
+            indptr.push(indices.len() as i64);
+        }
+        Csr { n: self.n, indptr, indices, data }
     }
 
     /// Whether w_ij == w_ji for every pair.
@@ -213,12 +250,6 @@ impl Csr {
             }
             indptr.push(indices.len() as i64);
         }
-        Self { n, indptr, indices, data }
-    }
-
-    fn from_sprs(m: sprs::CsMatI<f64, i64, i64>) -> Self {
-        let n = m.rows();
-        let (indptr, indices, data) = m.into_raw_storage();
         Self { n, indptr, indices, data }
     }
 

@@ -61,6 +61,25 @@ impl Metric {
         Ok(n)
     }
 
+    /// Coordinates in one canonical spelling, so that one place is always
+    /// written the same way: for great circle, longitudes in [180, 360] move
+    /// to [-180, 0] (exact by Sterbenz's lemma) and both poles get longitude
+    /// 0. Euclidean coordinates are returned as they are.
+    pub fn canonical(self, xy: &[f64]) -> std::borrow::Cow<'_, [f64]> {
+        if self == Self::Euclidean || !xy.chunks_exact(2).any(|p| p[0] >= 180.0 || p[1].abs() == 90.0) {
+            return std::borrow::Cow::Borrowed(xy);
+        }
+        let mut out = xy.to_vec();
+        for p in out.chunks_exact_mut(2) {
+            if p[1].abs() == 90.0 {
+                p[0] = 0.0;
+            } else if p[0] >= 180.0 {
+                p[0] -= 360.0;
+            }
+        }
+        std::borrow::Cow::Owned(out)
+    }
+
     /// Distance between two points in this metric.
     #[inline]
     pub fn distance(self, a: [f64; 2], b: [f64; 2]) -> f64 {

@@ -223,7 +223,9 @@ fn assemble(rows: Vec<Vec<(f64, usize)>>) -> Csr {
 /// The exact `k` nearest neighbours of every point, self excluded.
 ///
 /// `xy` holds interleaved coordinates (x0, y0, x1, y1, ...); for
-/// [`Metric::GreatCircle`] they are (longitude, latitude) in degrees.
+/// [`Metric::GreatCircle`] they are (longitude, latitude) in degrees, and one
+/// place spelled two ways (longitude 190 and -170, any longitude at a pole)
+/// counts as one location.
 /// Ties at the k-th distance go to the lower position. The result's data are
 /// distances (km for great circle).
 ///
@@ -237,6 +239,7 @@ fn assemble(rows: Vec<Vec<(f64, usize)>>) -> Csr {
 /// ```
 pub fn k_nearest(xy: &[f64], k: usize, metric: Metric) -> Result<Neighbors> {
     let n = metric.check(xy)?;
+    let xy = &*metric.canonical(xy);
     if k == 0 || k >= n {
         return Err(Error::InvalidK { k, n });
     }
@@ -265,6 +268,7 @@ pub fn k_nearest(xy: &[f64], k: usize, metric: Metric) -> Result<Neighbors> {
 /// ```
 pub fn within_distance(xy: &[f64], radius: f64, metric: Metric) -> Result<Neighbors> {
     metric.check(xy)?;
+    let xy = &*metric.canonical(xy);
     if !(radius >= 0.0) || !radius.is_finite() {
         return Err(Error::InvalidRadius { radius });
     }

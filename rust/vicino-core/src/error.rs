@@ -69,6 +69,11 @@ pub enum Error {
     ConstantValues,
     #[error("{what} needs at least {need} units, got {n}")]
     TooFewUnits { what: &'static str, need: usize, n: usize },
+    #[error(
+        "{count} unit(s) are linked to themselves (w_ii > 0), first at positions {first:?}; \
+         the moments of {what} assume w_ii = 0: remove the diagonal first"
+    )]
+    SelfLinks { what: &'static str, count: usize, first: Vec<usize> },
     #[error("the matrix is not a valid sparse matrix: {reason}")]
     InvalidMatrix { reason: String },
     #[error("the matrix must be square, got shape ({rows}, {cols})")]

@@ -93,6 +93,11 @@ pub fn standardize(w: CsrRef<'_>, method: Method, islands: Islands) -> Result<Ve
         Method::MaxEigenvalue => {
             need_weight("max_eigenvalue standardization")?;
             let rho = spectral_radius(w)?.value;
+            if !(rho > 0.0) {
+                return Err(Error::NoWeight {
+                    what: "max_eigenvalue standardization (the spectral radius is 0: the links form no cycle)",
+                });
+            }
             data.iter().map(|&v| v / rho).collect()
         }
         Method::Global => {

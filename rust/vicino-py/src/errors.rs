@@ -18,7 +18,7 @@ fn class_name(e: &Error) -> &'static str {
         | UnknownAlternative { .. } | TooFewUnits { .. } => "InvalidParameterError",
         Islands { .. } => "IslandError",
         NoWeight { .. } | InvalidMatrix { .. } | NotSquare { .. } | NonFiniteWeight { .. }
-        | NegativeWeight { .. } => "InvalidMatrixError",
+        | NegativeWeight { .. } | SelfLinks { .. } => "InvalidMatrixError",
         LengthMismatch { .. } | NonFiniteValues { .. } | ConstantValues => "InvalidValuesError",
         NotConverged { .. } => "ConvergenceError",
     }
@@ -32,7 +32,9 @@ pub fn to_py(py: Python<'_>, e: Error) -> PyErr {
         let cls = py.import("vicino.errors")?.getattr(class_name(&e))?;
         let inst = cls.call1((e.to_string(),))?;
         let (count, first) = match &e {
-            Error::Islands { count, first } | Error::NonFiniteValues { count, first } => (*count, first.clone()),
+            Error::Islands { count, first }
+            | Error::NonFiniteValues { count, first }
+            | Error::SelfLinks { count, first, .. } => (*count, first.clone()),
             Error::NonFiniteCoordinate { index, .. }
             | Error::CoordinateTooLarge { index, .. }
             | Error::LatitudeOutOfRange { index, .. }

@@ -86,7 +86,14 @@ impl Metric {
         match self {
             Self::Euclidean => {
                 let (dx, dy) = (a[0] - b[0], a[1] - b[1]);
-                (dx * dx + dy * dy).sqrt()
+                let d = (dx * dx + dy * dy).sqrt();
+                // squares of separations below ~1e-154 underflow; only distinct
+                // points at such tiny separations need the slower exact form
+                if d == 0.0 && (dx != 0.0 || dy != 0.0) {
+                    dx.hypot(dy)
+                } else {
+                    d
+                }
             }
             Self::GreatCircle => haversine_km(a, b),
         }

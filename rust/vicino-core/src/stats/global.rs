@@ -63,7 +63,11 @@ pub fn centred(w: CsrRef<'_>, x: &[f64]) -> Result<Vec<f64>> {
         return Err(Error::NonFiniteValues { count, first });
     }
     let mean = x.iter().sum::<f64>() / n as f64;
-    let z: Vec<f64> = x.iter().map(|v| v - mean).collect();
+    let mut z: Vec<f64> = x.iter().map(|v| v - mean).collect();
+    // a second pass removes the rounding error of the first mean, which
+    // matters when the values sit far from zero relative to their spread
+    let rest = z.iter().sum::<f64>() / n as f64;
+    z.iter_mut().for_each(|v| *v -= rest);
     let spread = z.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     // spread at rounding level of the mean is no variation at all
     if spread <= 8.0 * f64::EPSILON * mean.abs() || spread == 0.0 {
@@ -117,6 +121,13 @@ pub fn moran(w: CsrRef<'_>, x: &[f64], permutations: usize, seed: u64, alt: Alte
     let n = w.n();
     if n < 4 {
         return Err(Error::TooFewUnits { what: "Moran's I with its variance", need: 4, n });
+    }
+    let (count, first) = first_positions(n, |i| {
+        let (c, v) = w.row(i);
+        c.iter().zip(v).any(|(&j, &x)| j as usize == i && x != 0.0)
+    });
+    if count > 0 {
+        return Err(Error::SelfLinks { what: "Moran's I", count, first });
     }
     let z = centred(w, x)?;
     let (sums, q) = weight_sums(w);

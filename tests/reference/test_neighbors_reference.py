@@ -444,5 +444,6 @@ def test_great_circle_same_place_written_differently_is_a_duplicate():
     got = edges_by_row(w)
     assert got[0] == {1: 0.0}  # documented tie rule: distance 0, lower position first
     assert got[4] == {5: 0.0}  # common practice (see above)
-    r = vicino.within_distance(lonlat, 0.0, metric="great_circle")
+    with pytest.warns(vicino.DuplicateLocationWarning, match="6 units"):
+        r = vicino.within_distance(lonlat, 0.0, metric="great_circle")
     assert r.nnz == 4 * 3 + 2  # common practice: radius 0 links the units at one place

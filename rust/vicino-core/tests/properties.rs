@@ -721,12 +721,18 @@ proptest! {
         prop_assert_eq!(format!("{:?}", m1), format!("{:?}", m2));
         let p = m1.permutation.clone().unwrap();
         prop_assert_eq!(p.draws.len(), r);
-        // draw i is Moran's I of z shuffled by stream (seed, i): recompute densely
+        // draw i is Moran's I of z, arranged in the form's locality order,
+        // shuffled by stream (seed, i): recompute densely in the original order
         let mean = x.iter().sum::<f64>() / x.len() as f64;
         let z: Vec<f64> = x.iter().map(|v| v - mean).collect();
+        let order = vicino_core::stats::moments::weight_sums(v).1.order().to_vec();
         for (i, &d) in p.draws.iter().enumerate() {
-            let mut zp = z.clone();
-            shuffle(&mut stream(seed, i as u64), &mut zp);
+            let mut yp: Vec<f64> = order.iter().map(|&u| z[u as usize]).collect();
+            shuffle(&mut stream(seed, i as u64), &mut yp);
+            let mut zp = vec![0.0; z.len()];
+            for (k, &u) in order.iter().enumerate() {
+                zp[u as usize] = yp[k];
+            }
             prop_assert!(close(d, moran_dense(&a, &zp), 1e-10), "draw {}: {} vs {}", i, d, moran_dense(&a, &zp));
         }
         // p-value (M + 1) / (R + 1) (Hope 1968), M counted by brute force

@@ -12,7 +12,9 @@
 //! extreme as the observed I: `greater` I_r >= I, `less` I_r <= I,
 //! `two-sided` |I_r - E[I]| >= |I - E[I]| (E[I] is also the exact mean of the
 //! permutation distribution). Each draw costs O(n + nnz/2); draws run in
-//! parallel, each on its own seeded stream.
+//! parallel, each on its own seeded stream. Draw r shuffles the centred
+//! values arranged in the quadratic form's locality order
+//! ([`QuadraticForm::order`]) with `shuffle(stream(seed, r), ..)`.
 
 use super::moments::{weight_sums, QuadraticForm, WeightSums};
 use super::permutation::{shuffle, stream};
@@ -93,19 +95,36 @@ pub fn permutation_summary(draws: Vec<f64>, observed: f64, centre: f64, alt: Alt
     Permutation { extreme, p_value: (extreme as f64 + 1.0) / (r + 1.0), mean, std, z: (observed - mean) / std, draws }
 }
 
-/// Values of `f(z permuted)` for `draws` permutations, draw r on stream (seed, r).
-pub fn permuted<F>(z: &[f64], draws: usize, seed: u64, f: F) -> Vec<f64>
+/// Values of a statistic on `draws` permutations of `z`; draw r shuffles a
+/// copy of `z` with stream (seed, r). Draws are taken two at a time so that
+/// `pair` can share one pass over the weights between them; `one` serves a
+/// last odd draw. Both must give the same value for the same vector.
+pub fn permuted<F1, F2>(z: &[f64], draws: usize, seed: u64, one: F1, pair: F2) -> Vec<f64>
 where
-    F: Fn(&[f64]) -> f64 + Sync,
+    F1: Fn(&[f64]) -> f64 + Sync,
+    F2: Fn(&[f64], &[f64]) -> (f64, f64) + Sync,
 {
-    (0..draws)
+    let shuffled = |buf: &mut Vec<f64>, r: usize| {
+        buf.copy_from_slice(z);
+        shuffle(&mut stream(seed, r as u64), buf);
+    };
+    let pairs: Vec<(f64, Option<f64>)> = (0..draws.div_ceil(2))
         .into_par_iter()
-        .map_init(|| z.to_vec(), |buf, r| {
-            buf.copy_from_slice(z);
-            shuffle(&mut stream(seed, r as u64), buf);
-            f(buf)
-        })
-        .collect()
+        .map_init(
+            || (z.to_vec(), z.to_vec()),
+            |(a, b), p| {
+                shuffled(a, 2 * p);
+                if 2 * p + 1 < draws {
+                    shuffled(b, 2 * p + 1);
+                    let (u, v) = pair(a, b);
+                    (u, Some(v))
+                } else {
+                    (one(a), None)
+                }
+            },
+        )
+        .collect();
+    pairs.into_iter().flat_map(|(u, v)| std::iter::once(u).chain(v)).collect()
 }
 
 /// Global Moran's I of `x` under weights `w`.
@@ -138,8 +157,10 @@ pub fn moran(w: CsrRef<'_>, x: &[f64], permutations: usize, seed: u64, alt: Alte
     let m4: f64 = z.iter().map(|v| v.powi(4)).sum();
     let nf = n as f64;
     let scale = nf / (sums.s0 * m2);
-    let stat = |q: &QuadraticForm, z: &[f64]| scale * q.eval(z);
-    let statistic = stat(&q, &z);
+    // observed and permuted values alike are evaluated in the form's order
+    let y = q.local(&z);
+    let stat = |q: &QuadraticForm, y: &[f64]| scale * q.eval_local(y);
+    let statistic = stat(&q, &y);
     let expected = -1.0 / (nf - 1.0);
     let WeightSums { s0, s1, s2 } = sums;
     let var_norm = (nf * nf * s1 - nf * s2 + 3.0 * s0 * s0) / ((nf * nf - 1.0) * s0 * s0) - expected * expected;
@@ -150,7 +171,10 @@ pub fn moran(w: CsrRef<'_>, x: &[f64], permutations: usize, seed: u64, alt: Alte
         - expected * expected;
     let analytic = |v: f64| Analytic { variance: v, z: (statistic - expected) / v.sqrt() };
     let permutation = (permutations > 0).then(|| {
-        let draws = permuted(&z, permutations, seed, |zp| stat(&q, zp));
+        let draws = permuted(&y, permutations, seed, |yp| stat(&q, yp), |a, b| {
+            let (u, v) = q.eval_local_pair(a, b);
+            (scale * u, scale * v)
+        });
         permutation_summary(draws, statistic, expected, alt)
     });
     Ok(Moran {

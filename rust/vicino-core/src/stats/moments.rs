@@ -4,7 +4,11 @@
 //!
 //! The quadratic form z' W z equals z' S z / 2 with S = W + W^T, so it is
 //! evaluated on the upper triangle of S only: about half the links of a
-//! symmetric W. O(nnz).
+//! symmetric W. Units are first renumbered in breadth-first order over S
+//! (in the spirit of Cuthill and McKee 1969), so that a unit's neighbours
+//! sit close to it in memory: permutation tests evaluate the form hundreds
+//! of times, and gathering values from nearby addresses is several times
+//! faster than from random ones. O(n + nnz).
 
 use crate::csr::CsrRef;
 
@@ -16,33 +20,108 @@ pub struct WeightSums {
     pub s2: f64,
 }
 
-/// The upper triangle of S = W + W^T, with the diagonal halved, in compact
-/// row form: z' W z = sum_i z_i sum_{j in row i} s_ij z_j.
+/// The upper triangle of S = W + W^T, with the diagonal halved, as a flat
+/// list of (row, column, weight) with units renumbered for locality:
+/// z' W z = sum_e s_e y_row(e) y_col(e), where y = z in the form's own order
+/// (see [`QuadraticForm::local`]). One flat loop with eight running sums
+/// avoids the branch misses of short rows and the latency of one long sum.
 #[derive(Debug, Clone)]
 pub struct QuadraticForm {
-    indptr: Vec<usize>,
-    indices: Vec<u32>,
+    /// `order[new] = old` unit position
+    order: Vec<u32>,
+    rows: Vec<u32>,
+    cols: Vec<u32>,
     data: Vec<f64>,
 }
 
 impl QuadraticForm {
-    /// z' W z for a vector of length n.
-    #[inline]
-    pub fn eval(&self, z: &[f64]) -> f64 {
-        let mut total = 0.0;
-        for i in 0..self.indptr.len() - 1 {
-            let (a, b) = (self.indptr[i], self.indptr[i + 1]);
-            if a == b {
-                continue;
-            }
-            let mut acc = 0.0;
-            for (&j, &s) in self.indices[a..b].iter().zip(&self.data[a..b]) {
-                acc += s * z[j as usize];
-            }
-            total += z[i] * acc;
-        }
-        total
+    /// The units in the form's order: `order()[k]` is the original position
+    /// of the unit numbered k here.
+    pub fn order(&self) -> &[u32] {
+        &self.order
     }
+
+    /// Values given in the original unit order, rearranged into the form's order.
+    pub fn local(&self, z: &[f64]) -> Vec<f64> {
+        self.order.iter().map(|&u| z[u as usize]).collect()
+    }
+
+    /// z' W z for values already in the form's order.
+    #[inline]
+    pub fn eval_local(&self, y: &[f64]) -> f64 {
+        const LANES: usize = 8;
+        let mut acc = [0.0f64; LANES];
+        let full = self.data.len() / LANES * LANES;
+        let (rows, cols, data) = (&self.rows[..full], &self.cols[..full], &self.data[..full]);
+        for ((r, c), s) in rows.chunks_exact(LANES).zip(cols.chunks_exact(LANES)).zip(data.chunks_exact(LANES)) {
+            for k in 0..LANES {
+                acc[k] += s[k] * y[r[k] as usize] * y[c[k] as usize];
+            }
+        }
+        for e in full..self.data.len() {
+            acc[e - full] += self.data[e] * y[self.rows[e] as usize] * y[self.cols[e] as usize];
+        }
+        ((acc[0] + acc[1]) + (acc[2] + acc[3])) + ((acc[4] + acc[5]) + (acc[6] + acc[7]))
+    }
+
+    /// [`eval_local`](Self::eval_local) of two vectors in one pass over the
+    /// links, sharing the loads of indices and weights. Each result is the
+    /// same bit for bit as `eval_local` of that vector alone.
+    #[inline]
+    pub fn eval_local_pair(&self, y: &[f64], x: &[f64]) -> (f64, f64) {
+        const LANES: usize = 8;
+        let mut acc = [0.0f64; LANES];
+        let mut bcc = [0.0f64; LANES];
+        let full = self.data.len() / LANES * LANES;
+        let (rows, cols, data) = (&self.rows[..full], &self.cols[..full], &self.data[..full]);
+        for ((r, c), s) in rows.chunks_exact(LANES).zip(cols.chunks_exact(LANES)).zip(data.chunks_exact(LANES)) {
+            for k in 0..LANES {
+                let (i, j) = (r[k] as usize, c[k] as usize);
+                acc[k] += s[k] * y[i] * y[j];
+                bcc[k] += s[k] * x[i] * x[j];
+            }
+        }
+        for e in full..self.data.len() {
+            let (i, j) = (self.rows[e] as usize, self.cols[e] as usize);
+            acc[e - full] += self.data[e] * y[i] * y[j];
+            bcc[e - full] += self.data[e] * x[i] * x[j];
+        }
+        let sum = |a: [f64; LANES]| ((a[0] + a[1]) + (a[2] + a[3])) + ((a[4] + a[5]) + (a[6] + a[7]));
+        (sum(acc), sum(bcc))
+    }
+
+    /// z' W z for values in the original unit order.
+    pub fn eval(&self, z: &[f64]) -> f64 {
+        self.eval_local(&self.local(z))
+    }
+}
+
+/// Breadth-first order over the links of `s`, component by component,
+/// starting each from its lowest position: `order[new] = old`.
+fn locality_order(s: CsrRef<'_>) -> Vec<u32> {
+    let n = s.n();
+    let mut seen = vec![false; n];
+    let mut order: Vec<u32> = Vec::with_capacity(n);
+    for root in 0..n {
+        if seen[root] {
+            continue;
+        }
+        seen[root] = true;
+        let mut head = order.len();
+        order.push(root as u32);
+        while head < order.len() {
+            let u = order[head] as usize;
+            head += 1;
+            for &v in s.row(u).0 {
+                let v = v as usize;
+                if !seen[v] {
+                    seen[v] = true;
+                    order.push(v as u32);
+                }
+            }
+        }
+    }
+    order
 }
 
 /// Weight sums and the quadratic form of W, from one pass over W + W^T.
@@ -55,31 +134,43 @@ pub fn weight_sums(w: CsrRef<'_>) -> (WeightSums, QuadraticForm) {
     let cols = w.col_sums();
     let s2 = rows.iter().zip(&cols).map(|(r, c)| (r + c) * (r + c)).sum();
     let n = w.n();
-    let mut indptr = Vec::with_capacity(n + 1);
-    indptr.push(0);
-    let mut indices = Vec::new();
-    let mut data = Vec::new();
-    for i in 0..n {
-        let (c, v) = sv.row(i);
+    let order = locality_order(sv);
+    let mut rank = vec![0u32; n];
+    for (k, &u) in order.iter().enumerate() {
+        rank[u as usize] = k as u32;
+    }
+    let cap = sv.nnz() / 2 + n;
+    let (mut qr, mut qc, mut qd) = (Vec::with_capacity(cap), Vec::with_capacity(cap), Vec::with_capacity(cap));
+    for (i, &u) in order.iter().enumerate() {
+        let (c, v) = sv.row(u as usize);
         for (&j, &x) in c.iter().zip(v) {
-            let j = j as usize;
-            if j > i {
-                indices.push(j as u32);
-                data.push(x);
-            } else if j == i {
-                indices.push(j as u32);
-                data.push(0.5 * x);
+            let j = rank[j as usize] as usize;
+            if j >= i {
+                qr.push(i as u32);
+                qc.push(j as u32);
+                qd.push(if j == i { 0.5 * x } else { x });
             }
         }
-        indptr.push(indices.len());
     }
-    (WeightSums { s0, s1, s2 }, QuadraticForm { indptr, indices, data })
+    (WeightSums { s0, s1, s2 }, QuadraticForm { order, rows: qr, cols: qc, data: qd })
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::Csr;
+
+    #[test]
+    fn pair_equals_single_bit_for_bit() {
+        let rows: Vec<Vec<(usize, f64)>> = (0..40).map(|i| vec![((i * 7 + 3) % 40, 0.3), ((i * 11 + 1) % 40, 1.7)]).collect();
+        let w = Csr::from_rows(rows.into_iter().map(|r| { let mut r = r; r.dedup_by_key(|e| e.0); r }).collect());
+        let (_, q) = weight_sums(w.view());
+        let y: Vec<f64> = (0..40).map(|i| (i as f64 * 0.37).sin()).collect();
+        let x: Vec<f64> = (0..40).map(|i| (i as f64 * 1.3).cos()).collect();
+        let (a, b) = q.eval_local_pair(&y, &x);
+        assert_eq!(a.to_bits(), q.eval_local(&y).to_bits());
+        assert_eq!(b.to_bits(), q.eval_local(&x).to_bits());
+    }
 
     #[test]
     fn sums_by_hand() {

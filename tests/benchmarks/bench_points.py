@@ -1,72 +1,58 @@
 """Benchmarks of the point-based pipeline against the general-purpose route.
 
-Run: python tests/benchmarks/bench_points.py [--sizes 10000 100000 1000000] [--quick]
+Run: python tests/benchmarks/bench_points.py [--sizes 10000 100000 1000000]
 
 Prints a table of wall times, ratios (general-purpose route / vicino) and
 peak memory. It never fails: it measures, it does not judge.
 
-Routes compared, on the same data in the same run:
-* k nearest (k = 8): scipy.spatial.cKDTree(workers=-1) query of k + 1
+Steps, each on the same data for both routes:
+* k_nearest (k = 8): scipy.spatial.cKDTree(workers=-1) query of k + 1
   neighbours plus building the scipy.sparse.csr_array, vs vicino.k_nearest.
 * lag: scipy csr_array @ x vs Weights.lag(x), row-standardized k = 8.
-* Moran's I with 999 permutations: a numpy loop that permutes the values
-  and recomputes I with the scipy matrix, vs vicino.moran.
-Peak memory is the peak resident set of a fresh child process running
-only that step (so earlier steps do not hide it).
+* moran: 999 permutations; a numpy loop that permutes the values and
+  recomputes I with the scipy matrix, vs vicino.moran (which also computes
+  the analytic moments).
+* spectral radius: scipy.sparse.linalg.eigsh(k=1) vs Weights.spectral_radius()
+  on symmetric distance-band weights (about 8 neighbours per unit).
+Times: both routes run alternately in one process, best of several runs, so
+both see the same machine. Peak memory: the peak resident set of a fresh
+process that builds the inputs and runs one route once.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
-import os
 import subprocess
 import sys
 import textwrap
-import time
 
 CHILD = textwrap.dedent(
     r"""
     import json, resource, sys, time
-    import numpy as np, scipy.sparse as sp
+    import numpy as np, scipy.sparse as sp, scipy.sparse.linalg as sla
     from scipy.spatial import cKDTree
     import vicino
 
-    task, n, k, reps = sys.argv[1], int(sys.argv[2]), int(sys.argv[3]), int(sys.argv[4])
+    mode, step, n, k, reps = sys.argv[1], sys.argv[2], int(sys.argv[3]), int(sys.argv[4]), int(sys.argv[5])
     rng = np.random.default_rng(12345)
     pts = rng.random((n, 2))
 
     def scipy_knn():
-        tree = cKDTree(pts)
-        _, idx = tree.query(pts, k=k + 1, workers=-1)
-        idx = idx[:, 1:]
+        _, idx = cKDTree(pts).query(pts, k=k + 1, workers=-1)
         indptr = np.arange(0, n * k + 1, k, dtype=np.int64)
-        m = sp.csr_array((np.ones(n * k), idx.ravel(), indptr), shape=(n, n))
+        m = sp.csr_array((np.ones(n * k), idx[:, 1:].ravel(), indptr), shape=(n, n))
         m.sort_indices()
         return m
 
-    def best(f):
-        times = []
-        for _ in range(reps):
-            t = time.perf_counter(); f(); times.append(time.perf_counter() - t)
-        return min(times)
-
-    base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    if task == "knn_scipy":
-        t = best(scipy_knn)
-    elif task == "knn_vicino":
-        t = best(lambda: vicino.k_nearest(pts, k))
-    elif task in ("lag_scipy", "lag_vicino"):
-        w = vicino.k_nearest(pts, k).standardize("row")
-        m = w.to_scipy()
-        x = rng.random(n)
-        base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-        t = best((lambda: m @ x) if task == "lag_scipy" else (lambda: w.lag(x)))
-    elif task in ("moran_numpy", "moran_vicino"):
-        w = vicino.k_nearest(pts, k).standardize("row")
-        m = w.to_scipy()
+    if step == "knn":
+        routes = (scipy_knn, lambda: vicino.k_nearest(pts, k))
+    elif step == "lag":
+        w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy(); x = rng.random(n)
+        routes = (lambda: m @ x, lambda: w.lag(x))
+    elif step == "moran":
+        w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy()
         x = pts[:, 0] + rng.normal(0, 0.5, n)
-        base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
         R = 999
         def numpy_loop():
             z = x - x.mean(); s0 = m.sum(); zz = z @ z
@@ -76,16 +62,32 @@ CHILD = textwrap.dedent(
                 zp = g.permutation(z)
                 draws[r] = n / s0 * (zp @ (m @ zp)) / zz
             return draws
-        t = best(numpy_loop if task == "moran_numpy" else (lambda: vicino.moran(x, w, permutations=R, seed=1)))
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    print(json.dumps({"time": t, "peak_mb": peak / 1024, "extra_mb": max(peak - base, 0) / 1024}))
+        routes = (numpy_loop, lambda: vicino.moran(x, w, permutations=R, seed=1))
+    elif step == "spectral":
+        radius = np.sqrt(k / (np.pi * n))
+        w = vicino.within_distance(pts, radius); m = w.to_scipy()
+        routes = (lambda: sla.eigsh(m, k=1, which="LA", return_eigenvectors=False), w.spectral_radius)
+
+    if mode == "time":
+        best = [float("inf"), float("inf")]
+        for _ in range(reps):
+            for i, f in enumerate(routes):
+                t = time.perf_counter(); f(); best[i] = min(best[i], time.perf_counter() - t)
+        print(json.dumps(best))
+    else:
+        base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        routes[int(mode[-1])]()
+        peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        print(json.dumps({"peak_mb": peak / 1024, "extra_mb": max(peak - base, 0) / 1024}))
     """
 )
 
+LABEL = {"knn": "k_nearest", "lag": "lag", "moran": "moran 999 perm", "spectral": "spectral radius"}
 
-def run(task: str, n: int, k: int, reps: int) -> dict:
-    out = subprocess.run([sys.executable, "-c", CHILD, task, str(n), str(k), str(reps)],
-                         capture_output=True, text=True, check=True, env=os.environ.copy())
+
+def child(mode: str, step: str, n: int, k: int, reps: int):
+    out = subprocess.run([sys.executable, "-c", CHILD, mode, step, str(n), str(k), str(reps)],
+                         capture_output=True, text=True, check=True)
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
@@ -93,22 +95,19 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
     ap.add_argument("--moran-sizes", type=int, nargs="+", default=[10_000, 100_000])
-    ap.add_argument("--reps", type=int, default=3)
+    ap.add_argument("--reps", type=int, default=3, help="runs of the slow steps (fast ones run 10x as often)")
     ap.add_argument("--k", type=int, default=8)
     args = ap.parse_args()
-    rows = []
-    for n in args.sizes:
-        for name, base, ours in (("k_nearest", "knn_scipy", "knn_vicino"), ("lag", "lag_scipy", "lag_vicino")):
-            b, o = run(base, n, args.k, args.reps), run(ours, n, args.k, args.reps)
-            rows.append((name, n, b, o))
-    for n in args.moran_sizes:
-        b, o = run("moran_numpy", n, args.k, 1), run("moran_vicino", n, args.k, 1)
-        rows.append(("moran 999 perm", n, b, o))
-    print(f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}")
-    for name, n, b, o in rows:
-        print(f"{name:<16}{n:>10,}{b['time']:>12.4f}{o['time']:>11.4f}{b['time'] / o['time']:>7.2f}x"
-              f"{b['peak_mb']:>9.0f}{o['peak_mb']:>10.0f}")
-    print("ratio = baseline time / vicino time (higher is better); MB = peak resident memory of the step's process")
+    plan = [(s, n) for n in args.sizes for s in ("knn", "lag", "spectral")] + [("moran", n) for n in args.moran_sizes]
+    print(f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}", flush=True)
+    for step, n in plan:
+        reps = args.reps * 10 if step == "lag" else (1 if step == "moran" and n >= 100_000 else args.reps)
+        tb, tv = child("time", step, n, args.k, reps)
+        mb, mv = child("mem0", step, n, args.k, 1), child("mem1", step, n, args.k, 1)
+        print(f"{LABEL[step]:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}",
+              flush=True)
+    print("ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
+          "that builds the inputs and runs that route once")
 
 
 if __name__ == "__main__":

@@ -10,8 +10,9 @@
 //!   variance-stabilized symmetric weights, for example), in which case
 //!   M_ij = sqrt(w_ij w_ji) has the same eigenvalues: Lanczos iteration on
 //!   the symmetric matrix, stopped when the Ritz residual |beta_k s_k| is
-//!   below 1e-11 of the estimate. Without reorthogonalization the extreme
-//!   Ritz value stays accurate (Paige 1980).
+//!   below 1e-11 of the estimate, or when the estimate has not moved by
+//!   1e-14 (relative) for 20 iterations. Without reorthogonalization the
+//!   extreme Ritz value stays accurate (Paige 1980).
 //! * Otherwise: the strongly connected components (Tarjan 1972) are treated
 //!   one by one; on each (irreducible) block, power iteration on W + I with
 //!   the Collatz-Wielandt bounds min_i (Bx)_i / x_i <= rho + 1 <= max_i
@@ -43,6 +44,12 @@ pub struct SpectralRadius {
 const MAX_LANCZOS: usize = 5000;
 const MAX_POWER: usize = 20_000;
 const LANCZOS_TOL: f64 = 1e-11;
+/// Lanczos also stops when the estimate, which only grows, has moved by
+/// less than this (relative) for `STALL_ITERATIONS` iterations in a row:
+/// with close eigenvalues the Ritz value settles long before the residual
+/// is small, and lost orthogonality then keeps the residual from falling.
+const STALL_TOL: f64 = 1e-14;
+const STALL_ITERATIONS: usize = 20;
 const POWER_TOL: f64 = 1e-12;
 
 fn constant(v: &[f64]) -> Option<f64> {
@@ -126,6 +133,7 @@ fn lanczos(w: CsrRef<'_>) -> Result<SpectralRadius> {
     let mut q_prev = vec![0.0; n];
     let (mut alpha, mut beta) = (Vec::new(), Vec::new());
     let mut theta = f64::NAN;
+    let (mut last, mut stalled) = (f64::NAN, 0);
     for it in 1..=MAX_LANCZOS {
         let mut v = lag_unchecked(w, &q);
         let a = dot(&q, &v);
@@ -137,7 +145,13 @@ fn lanczos(w: CsrRef<'_>) -> Result<SpectralRadius> {
         let b = dot(&v, &v).sqrt();
         theta = largest_tridiagonal(&alpha, &beta);
         let residual = b * last_component(&alpha, &beta, theta);
-        if residual <= LANCZOS_TOL * theta.abs() || b <= f64::EPSILON * theta.abs() || it >= n {
+        if (theta - last).abs() <= STALL_TOL * theta.abs() {
+            stalled += 1;
+        } else {
+            stalled = 0;
+        }
+        last = theta;
+        if residual <= LANCZOS_TOL * theta.abs() || stalled >= STALL_ITERATIONS || b <= f64::EPSILON * theta.abs() || it >= n {
             return Ok(SpectralRadius { value: theta, iterations: it, method: SpectralMethod::Lanczos });
         }
         beta.push(b);

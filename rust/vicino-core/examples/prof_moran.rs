@@ -1,3 +1,6 @@
+//! Core-only timing of the pieces of a Moran permutation test on k = 8
+//! nearest-neighbour weights of uniform random points:
+//! `cargo run --release --example prof_moran`.
 use std::time::Instant;
 use vicino_core::neighbors::{k_nearest, Metric};
 use vicino_core::standardize::{standardize, Islands, Method};

@@ -1,3 +1,5 @@
+//! Core-only timing of the spectral radius of distance-band weights (about
+//! 8 neighbours per unit): `cargo run --release --example prof_spectral -- [n]`.
 use std::time::Instant;
 use vicino_core::neighbors::{within_distance, Metric};
 use vicino_core::spectral::spectral_radius;

@@ -233,6 +233,12 @@ impl Csr {
         Ok(Self { n, indptr, indices, data })
     }
 
+    /// Own buffers that this crate built in canonical form (checked in debug builds).
+    pub(crate) fn from_canonical(n: usize, indptr: Vec<i64>, indices: Vec<i64>, data: Vec<f64>) -> Self {
+        debug_assert!(CsrRef::validated(n, &indptr, &indices, &data).is_ok());
+        Self { n, indptr, indices, data }
+    }
+
     /// Build from per-row lists of `(column, value)`, sorting each row by
     /// column. Rows must not repeat a column.
     pub fn from_rows(rows: Vec<Vec<(usize, f64)>>) -> Self {

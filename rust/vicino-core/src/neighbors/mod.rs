@@ -12,7 +12,8 @@
 //! Complexity: O(n log n) to build, about O(log n + k) per query.
 //!
 //! Duplicate locations are handled: copies are at distance 0 of each other,
-//! so they are each other's nearest neighbours, ordered by position.
+//! so they are each other's nearest neighbours, ordered by position. Queries
+//! run in the Z-order of the locations (see `Layout`), for cache locality.
 
 pub mod metric;
 
@@ -135,69 +136,117 @@ fn as_pairs(xy: &[f64]) -> &[[f64; 2]] {
     pairs
 }
 
-/// Groups of units at identical locations: for each unit, the positions of
-/// all units at its location (sorted), or an empty slice when it is alone.
-struct Duplicates {
+/// Spread the bits of `v` to the even bit positions of a u64.
+fn spread(v: u32) -> u64 {
+    let mut x = v as u64;
+    x = (x | x << 16) & 0x0000_FFFF_0000_FFFF;
+    x = (x | x << 8) & 0x00FF_00FF_00FF_00FF;
+    x = (x | x << 4) & 0x0F0F_0F0F_0F0F_0F0F;
+    x = (x | x << 2) & 0x3333_3333_3333_3333;
+    (x | x << 1) & 0x5555_5555_5555_5555
+}
+
+/// The units in Z-order (Morton order) of their locations, which serves
+/// twice: queries run in this order, so consecutive queries visit the same
+/// part of the tree (several times faster than random order on large
+/// inputs), and units at identical locations are adjacent in it, which
+/// finds the groups of duplicates. Ties in the order go by exact
+/// coordinates, then by position.
+struct Layout {
     order: Vec<usize>,
-    /// start and end in `order` of the group of each unit
+    /// start and end in `order` of the group of identical locations of each
+    /// unit; (0, 0) for a unit alone at its location
     group: Vec<(usize, usize)>,
     duplicate_units: usize,
 }
 
-impl Duplicates {
-    fn find(xy: &[[f64; 2]]) -> Self {
+impl Layout {
+    fn new(xy: &[[f64; 2]]) -> Self {
         let n = xy.len();
-        // -0.0 and 0.0 are the same place
-        let key = |i: usize| {
-            let p = xy[i];
-            ((p[0] + 0.0).to_bits(), (p[1] + 0.0).to_bits())
+        let (lo, hi) = xy.iter().fold(([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]), |(lo, hi), p| {
+            ([lo[0].min(p[0]), lo[1].min(p[1])], [hi[0].max(p[0]), hi[1].max(p[1])])
+        });
+        let quantize = |v: f64, a: usize| {
+            let range = hi[a] - lo[a];
+            if range > 0.0 {
+                ((v - lo[a]) / range * u32::MAX as f64) as u32
+            } else {
+                0
+            }
         };
-        let mut order: Vec<usize> = (0..n).collect();
-        order.par_sort_unstable_by_key(|&i| (key(i), i));
+        // -0.0 and 0.0 are the same place
+        let place = |p: [f64; 2]| ((p[0] + 0.0).to_bits(), (p[1] + 0.0).to_bits());
+        let mut keys: Vec<(u64, (u64, u64), usize)> = xy
+            .par_iter()
+            .enumerate()
+            .map(|(i, &p)| (spread(quantize(p[0], 0)) | spread(quantize(p[1], 1)) << 1, place(p), i))
+            .collect();
+        keys.par_sort_unstable();
         let mut group = vec![(0, 0); n];
         let mut duplicate_units = 0;
         let mut a = 0;
         while a < n {
             let mut b = a + 1;
-            while b < n && key(order[b]) == key(order[a]) {
+            while b < n && keys[b].1 == keys[a].1 {
                 b += 1;
             }
             if b - a > 1 {
                 duplicate_units += b - a;
-                for &u in &order[a..b] {
-                    group[u] = (a, b);
+                for key in &keys[a..b] {
+                    group[key.2] = (a, b);
                 }
             }
             a = b;
         }
+        let order = keys.into_iter().map(|k| k.2).collect();
         Self { order, group, duplicate_units }
     }
 
-    /// Positions sharing unit i's location (i included, sorted by position).
-    fn of(&self, i: usize) -> &[usize] {
+    /// Positions sharing unit i's location (i included, sorted by position),
+    /// or an empty slice.
+    fn same_place(&self, i: usize) -> &[usize] {
         let (a, b) = self.group[i];
         &self.order[a..b]
     }
 }
 
-fn build<R: Send>(
-    xy: &[f64],
-    metric: Metric,
-    per_point: impl Fn(&dyn SpaceQuery, usize, &mut Vec<(f64, usize)>) -> R + Sync,
-) -> Result<Vec<R>> {
-    metric.check(xy)?;
+/// Rows of fixed width k written by many threads at once, each row by
+/// exactly one of them.
+struct FixedRows {
+    cols: *mut i64,
+    dists: *mut f64,
+    k: usize,
+    n: usize,
+}
+
+// SAFETY: `FixedRows::write` is called at most once per row (rows are the
+// distinct entries of a permutation), so no two threads touch one element.
+unsafe impl Sync for FixedRows {}
+
+impl FixedRows {
+    /// Write row `i` from `(distance, column)` pairs.
+    ///
+    /// # Safety
+    /// No other call may write row `i` concurrently.
+    unsafe fn write(&self, i: usize, row: &[(f64, usize)]) {
+        assert!(i < self.n && row.len() == self.k);
+        for (o, &(d, j)) in row.iter().enumerate() {
+            // SAFETY: i < n and o < k keep the offset inside the n * k buffers.
+            unsafe {
+                *self.cols.add(i * self.k + o) = j as i64;
+                *self.dists.add(i * self.k + o) = d;
+            }
+        }
+    }
+}
+
+/// Build the search space for `xy` (already checked) and hand it to `f`.
+fn with_space<R>(xy: &[f64], metric: Metric, f: impl FnOnce(&dyn SpaceQuery) -> R) -> R {
     let pairs = as_pairs(xy);
-    let run = |space: &dyn SpaceQuery| -> Vec<R> {
-        (0..pairs.len())
-            .into_par_iter()
-            .with_min_len(256)
-            .map_init(Vec::new, |buf, i| per_point(space, i, buf))
-            .collect()
-    };
-    Ok(match metric {
-        Metric::Euclidean => run(&Space::<2>::new(pairs, metric, |p| p)),
-        Metric::GreatCircle => run(&Space::<3>::new(pairs, metric, metric::unit_vector)),
-    })
+    match metric {
+        Metric::Euclidean => f(&Space::<2>::new(pairs, metric, |p| p)),
+        Metric::GreatCircle => f(&Space::<3>::new(pairs, metric, metric::unit_vector)),
+    }
 }
 
 /// Object-safe face of [`Space`] for either dimension.
@@ -215,9 +264,17 @@ impl<const D: usize> SpaceQuery for Space<'_, D> {
     }
 }
 
-/// Sort each row by column and assemble CSR.
-fn assemble(rows: Vec<Vec<(f64, usize)>>) -> Csr {
-    Csr::from_rows(rows.into_iter().map(|r| r.into_iter().map(|(d, j)| (j, d)).collect()).collect())
+/// Sort each row by column and assemble CSR, in parallel.
+fn assemble(mut rows: Vec<Vec<(f64, usize)>>) -> Csr {
+    rows.par_iter_mut().for_each(|r| r.sort_unstable_by_key(|&(_, j)| j));
+    let mut indptr = Vec::with_capacity(rows.len() + 1);
+    indptr.push(0i64);
+    for r in &rows {
+        indptr.push(indptr[indptr.len() - 1] + r.len() as i64);
+    }
+    let indices = rows.par_iter().flat_map_iter(|r| r.iter().map(|&(_, j)| j as i64)).collect();
+    let data = rows.par_iter().flat_map_iter(|r| r.iter().map(|&(d, _)| d)).collect();
+    Csr::from_canonical(rows.len(), indptr, indices, data)
 }
 
 /// The exact `k` nearest neighbours of every point, self excluded.
@@ -243,18 +300,29 @@ pub fn k_nearest(xy: &[f64], k: usize, metric: Metric) -> Result<Neighbors> {
     if k == 0 || k >= n {
         return Err(Error::InvalidK { k, n });
     }
-    let dups = Duplicates::find(as_pairs(xy));
-    let rows = build(xy, metric, |space, i, buf| {
-        let same = dups.of(i);
-        if same.len() > k {
-            // k copies at distance 0: the lowest positions other than i
-            same.iter().filter(|&&j| j != i).take(k).map(|&j| (0.0, j)).collect()
-        } else {
-            space.k_nearest(i, k, buf);
-            buf.clone()
-        }
-    })?;
-    Ok(Neighbors { graph: assemble(rows), duplicate_units: dups.duplicate_units })
+    let layout = Layout::new(as_pairs(xy));
+    // every row has exactly k entries: fill the CSR buffers in place, taking
+    // the units in Z-order
+    let mut indices = vec![0i64; n * k];
+    let mut data = vec![0.0f64; n * k];
+    let rows = FixedRows { cols: indices.as_mut_ptr(), dists: data.as_mut_ptr(), k, n };
+    with_space(xy, metric, |space| {
+        layout.order.par_iter().with_min_len(256).for_each_init(Vec::new, |buf, &i| {
+            let same = layout.same_place(i);
+            if same.len() > k {
+                // k copies at distance 0: the lowest positions other than i
+                buf.clear();
+                buf.extend(same.iter().filter(|&&j| j != i).take(k).map(|&j| (0.0, j)));
+            } else {
+                space.k_nearest(i, k, buf);
+            }
+            buf.sort_unstable_by_key(|&(_, j)| j);
+            // SAFETY: `layout.order` is a permutation, so row i is written once.
+            unsafe { rows.write(i, buf) };
+        });
+    });
+    let indptr = (0..=n as i64).map(|i| i * k as i64).collect();
+    Ok(Neighbors { graph: Csr::from_canonical(n, indptr, indices, data), duplicate_units: layout.duplicate_units })
 }
 
 /// Every pair of distinct points at distance `<= radius` (inclusive), self
@@ -272,10 +340,22 @@ pub fn within_distance(xy: &[f64], radius: f64, metric: Metric) -> Result<Neighb
     if !(radius >= 0.0) || !radius.is_finite() {
         return Err(Error::InvalidRadius { radius });
     }
-    let dups = Duplicates::find(as_pairs(xy));
-    let rows = build(xy, metric, |space, i, buf| {
-        space.within(i, radius, buf);
-        buf.clone()
-    })?;
-    Ok(Neighbors { graph: assemble(rows), duplicate_units: dups.duplicate_units })
+    let layout = Layout::new(as_pairs(xy));
+    // queries in Z-order, then the rows back in unit order
+    let found: Vec<Vec<(f64, usize)>> = with_space(xy, metric, |space| {
+        layout
+            .order
+            .par_iter()
+            .with_min_len(256)
+            .map_init(Vec::new, |buf, &i| {
+                space.within(i, radius, buf);
+                buf.clone()
+            })
+            .collect()
+    });
+    let mut rows = vec![Vec::new(); found.len()];
+    for (row, &i) in found.into_iter().zip(&layout.order) {
+        rows[i] = row;
+    }
+    Ok(Neighbors { graph: assemble(rows), duplicate_units: layout.duplicate_units })
 }

@@ -145,7 +145,7 @@ def moran(values, weights: Weights, *, permutations: int = 999, seed=None, alter
     choice(alternative, "alternative", ALTERNATIVES)
     seed = _seed(seed)
     x, _ = weights._aligned(values, allow_2d=False)
-    r = call(_core.moran, *weights._csr(), x, permutations, seed, alternative, ids=weights.ids)
+    r = call(_core.moran, weights._csr(), x, permutations, seed, alternative, ids=weights.ids)
     stat, expected = r["statistic"], r["expected"]
 
     def analytic(name):

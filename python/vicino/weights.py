@@ -188,13 +188,13 @@ class Weights:
         """
         choice(method, "standardization", STANDARDIZATIONS)
         choice(islands, "islands policy", ("raise", "keep"))
-        data = call(_core.standardize, *self._csr(), method, islands == "keep", ids=self._ids)
+        data = call(_core.standardize, self._csr(), method, islands == "keep", ids=self._ids)
         params = {"method": method} if islands == "raise" else {"method": method, "islands": islands}
         return self._derive(data, Step("standardize", params))
 
     def spectral_radius(self) -> float:
         """The largest eigenvalue in modulus of the matrix (found iteratively)."""
-        value, _, _ = call(_core.spectral_radius, *self._csr(), ids=self._ids)
+        value, _, _ = call(_core.spectral_radius, self._csr(), ids=self._ids)
         return value
 
     def lag(self, values):
@@ -207,9 +207,9 @@ class Weights:
         """
         arr, wrap = self._aligned(values, allow_2d=True)
         if arr.ndim == 1:
-            out = call(_core.lag_vector, *self._csr(), arr, ids=self._ids)
+            out = call(_core.lag_vector, self._csr(), arr, ids=self._ids)
         else:
-            out = call(_core.lag_columns, *self._csr(), arr, ids=self._ids)
+            out = call(_core.lag_columns, self._csr(), arr, ids=self._ids)
         return wrap(out)
 
     def _aligned(self, values, *, allow_2d: bool):

@@ -126,6 +126,19 @@ def test_k_nearest_weights_are_asymmetric_like_reference():
 # ---------------------------------------------------------------------------
 # k_nearest with ties and duplicates: documented rule, lower position wins
 # ---------------------------------------------------------------------------
+def assert_integer_knn(w, xy, k):
+    """Check w against brute force on integer coordinates; return the squared distances."""
+    ixy = xy.astype(np.int64)
+    d2 = ((ixy[:, None, :] - ixy[None, :, :]) ** 2).sum(-1)  # exact: integer arithmetic
+    expected = brute_knn(d2, k)  # reference: numpy brute force, (distance, position) order
+    got = edges_by_row(w)
+    for i in range(len(xy)):
+        assert sorted(got[i]) == expected[i]  # reference: numpy brute force, (distance, position) order
+        for j, dij in got[i].items():
+            assert dij == pytest.approx(np.sqrt(d2[i, j]), rel=1e-12, abs=1e-12)  # reference: numpy brute force
+    return d2
+
+
 @pytest.mark.parametrize("seed", [0, 1, 2])
 @pytest.mark.parametrize("k", [1, 3, 8])
 def test_k_nearest_ties_break_by_position(seed, k):
@@ -136,14 +149,7 @@ def test_k_nearest_ties_break_by_position(seed, k):
         warnings.simplefilter("error", vicino.DuplicateLocationWarning)
         w = vicino.k_nearest(xy, k)
     # integer squared distances are exact, so ties are exact too
-    ixy = xy.astype(np.int64)
-    d2 = ((ixy[:, None, :] - ixy[None, :, :]) ** 2).sum(-1)
-    expected = brute_knn(d2, k)  # reference: numpy brute force, (distance, position) order
-    got = edges_by_row(w)
-    for i in range(len(xy)):
-        assert sorted(got[i]) == expected[i]  # reference: numpy brute force, (distance, position) order
-        for j, dij in got[i].items():
-            assert dij == pytest.approx(np.sqrt(d2[i, j]), rel=1e-12)  # reference: numpy brute force
+    d2 = assert_integer_knn(w, xy, k)
     # the grid really has ties at the k-th distance somewhere (the test is meaningful)
     kth = np.sort(np.where(np.eye(len(xy), dtype=bool), np.iinfo(np.int64).max, d2), axis=1)
     assert (kth[:, k - 1] == kth[:, k]).any()  # reference: numpy brute force
@@ -162,14 +168,8 @@ def test_k_nearest_duplicates_warn_and_follow_tie_rule(seed, k):
         w = vicino.k_nearest(xy, k)
     assert w.duplicate_locations == n_shared  # reference: numpy.unique
 
-    ixy = xy.astype(np.int64)
-    d2 = ((ixy[:, None, :] - ixy[None, :, :]) ** 2).sum(-1)
-    expected = brute_knn(d2, k)  # reference: numpy brute force, (distance, position) order
+    d2 = assert_integer_knn(w, xy, k)
     got = edges_by_row(w)
-    for i in range(len(xy)):
-        assert sorted(got[i]) == expected[i]  # reference: numpy brute force, (distance, position) order
-        for j, dij in got[i].items():
-            assert dij == pytest.approx(np.sqrt(d2[i, j]), abs=1e-12)  # reference: numpy brute force
     # a unit with a twin has it at distance 0
     twins = np.flatnonzero(cnt[inverse.ravel()] > 1)
     for i in twins:

@@ -37,7 +37,10 @@ fn euclid(a: [f64; 2], b: [f64; 2]) -> f64 {
     (dx * dx + dy * dy).sqrt()
 }
 
-/// Haversine formula on the IUGG mean sphere, R1 = 6371.0088 km.
+/// Haversine formula on the IUGG mean sphere, R1 = 6371.0088 km. Written out
+/// here on purpose, formula for formula like the core's: exact ties on
+/// lattices are defined by the rounding of this very formula. (The Python
+/// reference tests check the distances against other formulas.)
 fn haversine(a: [f64; 2], b: [f64; 2]) -> f64 {
     const R1: f64 = 6371.0088; // IUGG mean Earth radius (Moritz 2000)
     let (lon1, lat1) = (a[0].to_radians(), a[1].to_radians());

@@ -7,28 +7,20 @@ use numpy::{IntoPyArray, PyArray1, PyReadonlyArray1};
 use pyo3::prelude::*;
 use vicino_core::{Csr, CsrRef};
 
-/// The three buffers of a CSR matrix as given by Python.
-pub struct CsrArgs<'py> {
-    pub n: usize,
-    pub indptr: PyReadonlyArray1<'py, i64>,
-    pub indices: PyReadonlyArray1<'py, i64>,
-    pub data: PyReadonlyArray1<'py, f64>,
-}
+/// A weights matrix as Python passes it: one tuple (n, indptr, indices,
+/// data), the buffers of a `vicino.Weights`.
+#[derive(FromPyObject)]
+pub struct CsrArgs<'py>(
+    pub usize,
+    pub PyReadonlyArray1<'py, i64>,
+    pub PyReadonlyArray1<'py, i64>,
+    pub PyReadonlyArray1<'py, f64>,
+);
 
 impl<'py> CsrArgs<'py> {
-    pub fn new(
-        n: usize,
-        indptr: PyReadonlyArray1<'py, i64>,
-        indices: PyReadonlyArray1<'py, i64>,
-        data: PyReadonlyArray1<'py, f64>,
-    ) -> Self {
-        Self { n, indptr, indices, data }
-    }
-
     /// Borrow as a trusted core matrix (buffers held by a `vicino.Weights`).
     pub fn view(&self, py: Python<'py>) -> PyResult<CsrRef<'_>> {
-        CsrRef::trusted(self.n, slice(&self.indptr)?, slice(&self.indices)?, slice(&self.data)?)
-            .map_err(|e| to_py(py, e))
+        CsrRef::trusted(self.0, slice(&self.1)?, slice(&self.2)?, slice(&self.3)?).map_err(|e| to_py(py, e))
     }
 }
 

@@ -10,20 +10,15 @@ use vicino_core::stats::{global, Alternative};
 /// Global Moran's I: a dict of the statistic, its moments and, when
 /// `permutations > 0`, the permutation summary and draws.
 #[pyfunction]
-#[allow(clippy::too_many_arguments)]
 pub fn moran<'py>(
     py: Python<'py>,
-    n: usize,
-    indptr: PyReadonlyArray1<'py, i64>,
-    indices: PyReadonlyArray1<'py, i64>,
-    data: PyReadonlyArray1<'py, f64>,
+    w: CsrArgs<'py>,
     x: PyReadonlyArray1<'py, f64>,
     permutations: usize,
     seed: u64,
     alternative: &str,
 ) -> PyResult<Bound<'py, PyDict>> {
-    let args = CsrArgs::new(n, indptr, indices, data);
-    let w = args.view(py)?;
+    let w = w.view(py)?;
     let x = slice(&x)?;
     let m = run(py, || global::moran(w, x, permutations, seed, Alternative::parse(alternative)?))?;
     let d = PyDict::new(py);

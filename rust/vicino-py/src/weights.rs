@@ -24,15 +24,11 @@ pub fn validate<'py>(
 #[pyfunction]
 pub fn standardize<'py>(
     py: Python<'py>,
-    n: usize,
-    indptr: PyReadonlyArray1<'py, i64>,
-    indices: PyReadonlyArray1<'py, i64>,
-    data: PyReadonlyArray1<'py, f64>,
+    w: CsrArgs<'py>,
     method: &str,
     keep_islands: bool,
 ) -> PyResult<Bound<'py, PyArray1<f64>>> {
-    let args = CsrArgs::new(n, indptr, indices, data);
-    let w = args.view(py)?;
+    let w = w.view(py)?;
     let islands = if keep_islands { Islands::Keep } else { Islands::Raise };
     let out = run(py, || scale::standardize(w, Method::parse(method)?, islands))?;
     Ok(out.into_pyarray(py))
@@ -42,13 +38,9 @@ pub fn standardize<'py>(
 #[pyfunction]
 pub fn spectral_radius<'py>(
     py: Python<'py>,
-    n: usize,
-    indptr: PyReadonlyArray1<'py, i64>,
-    indices: PyReadonlyArray1<'py, i64>,
-    data: PyReadonlyArray1<'py, f64>,
+    w: CsrArgs<'py>,
 ) -> PyResult<(f64, usize, &'static str)> {
-    let args = CsrArgs::new(n, indptr, indices, data);
-    let w = args.view(py)?;
+    let w = w.view(py)?;
     let r = run(py, || spectral::spectral_radius(w))?;
     let name = match r.method {
         spectral::SpectralMethod::ConstantSums => "constant sums",
@@ -62,14 +54,10 @@ pub fn spectral_radius<'py>(
 #[pyfunction]
 pub fn lag_vector<'py>(
     py: Python<'py>,
-    n: usize,
-    indptr: PyReadonlyArray1<'py, i64>,
-    indices: PyReadonlyArray1<'py, i64>,
-    data: PyReadonlyArray1<'py, f64>,
+    w: CsrArgs<'py>,
     x: PyReadonlyArray1<'py, f64>,
 ) -> PyResult<Bound<'py, PyArray1<f64>>> {
-    let args = CsrArgs::new(n, indptr, indices, data);
-    let w = args.view(py)?;
+    let w = w.view(py)?;
     let x = slice(&x)?;
     Ok(run(py, || lag::lag(w, x))?.into_pyarray(py))
 }
@@ -78,14 +66,10 @@ pub fn lag_vector<'py>(
 #[pyfunction]
 pub fn lag_columns<'py>(
     py: Python<'py>,
-    n: usize,
-    indptr: PyReadonlyArray1<'py, i64>,
-    indices: PyReadonlyArray1<'py, i64>,
-    data: PyReadonlyArray1<'py, f64>,
+    w: CsrArgs<'py>,
     x: PyReadonlyArray2<'py, f64>,
 ) -> PyResult<Bound<'py, PyArray2<f64>>> {
-    let args = CsrArgs::new(n, indptr, indices, data);
-    let w = args.view(py)?;
+    let w = w.view(py)?;
     let x = x.as_array();
     Ok(run(py, || lag::lag_columns(w, x))?.into_pyarray(py))
 }

@@ -5,7 +5,7 @@ or from a matrix (:func:`from_matrix`), standardize them, compute lags with
 :meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`.
 """
 
-from .build import EARTH_RADIUS_KM, from_matrix, k_nearest, within_distance
+from .build import EARTH_RADIUS_KM, cliff_ord, contiguity, from_matrix, k_nearest, within_distance
 from .errors import (
     ConvergenceError,
     DuplicateLocationWarning,
@@ -44,6 +44,8 @@ __all__ = [
     "Step",
     "VicinoError",
     "Weights",
+    "cliff_ord",
+    "contiguity",
     "from_matrix",
     "k_nearest",
     "moran",

@@ -10,11 +10,13 @@ import scipy.sparse as sp
 
 from . import _core
 from ._util import choice, make_ids, real_number, whole_number
-from .errors import DuplicateLocationWarning, InvalidMatrixError, InvalidTypeError
-from .geometry import as_points
+from .errors import DuplicateLocationWarning, InvalidMatrixError, InvalidParameterError, InvalidTypeError
+from .geometry import as_points, as_polygons
 from .weights import Step, Weights, call
 
 METRICS = ("euclidean", "great_circle")
+RULES = ("queen", "rook")
+CONTIGUITY_WEIGHTS = ("binary", "border_length")
 EARTH_RADIUS_KM = _core.EARTH_RADIUS_KM
 
 
@@ -28,7 +30,7 @@ def _from_search(result, ids: pd.Index, step: Step) -> Weights:
             stacklevel=3,
         )
     ones = np.ones(len(indices))
-    return Weights(indptr, indices, ones, ids, (step,), distances=distances, duplicates=duplicates)
+    return Weights(indptr, indices, ones, ids, (step,), links={"distance": distances}, duplicates=duplicates)
 
 
 def k_nearest(points, k: int, *, metric: str = "euclidean", ids=None, columns=None) -> Weights:
@@ -120,3 +122,95 @@ def from_matrix(matrix, *, ids=None) -> Weights:
     indices = m.indices.astype(np.int64)
     call(_core.validate, n, indptr, indices, m.data, ids=units)
     return Weights(indptr, indices, m.data, units, (Step("from_matrix", {"n": n}),))
+
+
+def _warn_empty(empty: np.ndarray, ids: pd.Index) -> None:
+    if empty.any():
+        from ._util import examples
+
+        warnings.warn(
+            f"{int(empty.sum())} unit(s) have empty geometry and become islands: ids {examples(ids[empty])}",
+            UserWarning,
+            stacklevel=3,
+        )
+
+
+def contiguity(polygons, rule: str = "queen", *, tolerance: float = 0.0, weight: str = "binary", ids=None) -> Weights:
+    """Contiguity weights: units are neighbours when their boundaries meet.
+
+    Parameters
+    ----------
+    polygons : GeoDataFrame, GeoSeries, shapely array or list of Polygon / MultiPolygon
+        One (multi)polygon per unit, holes included. Ids come from the index
+        of a pandas input unless ``ids`` is given.
+    rule : {"queen", "rook"}
+        ``queen``: the boundaries share at least one point. ``rook``: they
+        share a stretch of boundary of positive length.
+    tolerance : float
+        In coordinate units. 0 (the default) is exact: a vertex of one unit
+        must lie exactly on the other's boundary, though borders need not
+        have matching vertices (a vertex in the middle of the other's edge
+        counts). With ``tolerance > 0``, boundaries that come within
+        ``tolerance`` of each other touch (queen), and for rook the
+        near-coincident stretch must be longer than ``tolerance``; this
+        absorbs the gaps and slivers of digitized borders.
+    weight : {"binary", "border_length"}
+        ``border_length`` (rook only) weighs each link by the length of the
+        shared border, in coordinate units.
+    ids : sequence, optional
+        Unit ids.
+
+    Notes
+    -----
+    A unit lying inside another's exterior ring (an enclave in a hole, or
+    overlapping it) is its neighbour under both rules, and so are units
+    whose boundaries cross. Units with empty geometry become islands, with
+    a warning naming them. Contiguity is topological: longitude/latitude
+    input works unchanged (lengths are then in degrees; use
+    :func:`cliff_ord` with ``metric="great_circle"`` for kilometres).
+    The result is symmetric; ``to_edges()`` lists each link's
+    ``border_length`` and ``perimeter`` gives each unit's perimeter.
+    """
+    choice(rule, "contiguity rule", RULES)
+    choice(weight, "contiguity weight", CONTIGUITY_WEIGHTS)
+    tolerance = real_number(tolerance, "tolerance")
+    if weight == "border_length" and rule != "rook":
+        raise InvalidParameterError('weight="border_length" needs rule="rook": queen links at a single point have no length')
+    buffers, units, empty = as_polygons(polygons, ids=ids)
+    (indptr, indices, lengths), perimeter, _ = call(_core.contiguity, buffers, rule, tolerance, "euclidean", ids=units)
+    _warn_empty(empty, units)
+    data = lengths if weight == "border_length" else np.ones(len(indices))
+    params = {"rule": rule, "tolerance": tolerance}
+    if weight != "binary":
+        params["weight"] = weight
+    return Weights(indptr, indices, data, units, (Step("contiguity", params),),
+                   links={"border_length": lengths}, units={"perimeter": perimeter})
+
+
+def cliff_ord(polygons, *, border_power: float = 1.0, distance_power: float = 1.0, metric: str = "euclidean",
+              tolerance: float = 0.0, ids=None) -> Weights:
+    """Cliff-Ord weights: w_ij = b_ij^a / d_ij^b for rook neighbours.
+
+    After Cliff and Ord (1981): b_ij is the share of unit i's perimeter that
+    it shares with j, d_ij the distance between the units' centroids
+    (area-weighted centroids of the polygons, holes subtracted), a =
+    ``border_power`` and b = ``distance_power``; ``distance_power=2`` gives
+    the gravity form. The weights are asymmetric in general, since i's share
+    of its border with j differs from j's share with i.
+
+    With ``metric="great_circle"`` the polygons are in longitude/latitude:
+    border lengths and perimeters are measured along great circles and d_ij
+    is the great-circle distance in km between centroids computed in the
+    longitude/latitude plane (adequate for units much smaller than a
+    hemisphere). ``tolerance`` is as in :func:`contiguity`.
+    """
+    a = real_number(border_power, "border_power")
+    b = real_number(distance_power, "distance_power")
+    tolerance = real_number(tolerance, "tolerance")
+    choice(metric, "metric", METRICS)
+    buffers, units, empty = as_polygons(polygons, ids=ids)
+    (indptr, indices, data), perimeter, _ = call(_core.cliff_ord, buffers, a, b, tolerance, metric, ids=units)
+    _warn_empty(empty, units)
+    step = Step("cliff_ord", {"border_power": a, "distance_power": b, "metric": metric, "tolerance": tolerance,
+                              "symmetric": False})
+    return Weights(indptr, indices, data, units, (step,), units={"perimeter": perimeter})

@@ -144,3 +144,73 @@ def as_points(points, *, ids=None, columns=None) -> tuple[np.ndarray, pd.Index]:
         raise InvalidInputError("no points were given; pass at least two locations")
     units = make_ids(ids, xy.shape[0], index)
     return np.ascontiguousarray(xy, dtype=np.float64), units
+
+
+def _geometry_values(polygons) -> tuple[np.ndarray, pd.Index | None]:
+    """An object array of geometries and the pandas index, if any."""
+    index = None
+    if isinstance(polygons, pd.DataFrame):
+        if "geometry" not in polygons.columns and not hasattr(polygons, "geometry"):
+            raise InvalidTypeError("a DataFrame of polygons needs a 'geometry' column (a GeoDataFrame works)")
+        index = polygons.index
+        values = polygons.geometry if hasattr(polygons, "geometry") else polygons["geometry"]
+        values = np.asarray(values, dtype=object)
+    elif isinstance(polygons, pd.Series):
+        index = polygons.index
+        values = np.asarray(polygons.to_numpy(), dtype=object)
+    else:
+        if isinstance(polygons, (str, bytes)) or np.ndim(polygons) != 1:
+            raise InvalidTypeError(
+                "polygons must be a GeoDataFrame, GeoSeries, shapely array or list of Polygon / MultiPolygon"
+            )
+        values = np.empty(len(polygons), dtype=object)
+        values[:] = list(polygons)
+    return values, index
+
+
+def as_polygons(polygons, *, ids=None):
+    """Polygons as flat ragged buffers (coordinates, ring, polygon and unit offsets),
+    unit ids, and the mask of empty units.
+
+    Accepts a GeoDataFrame, GeoSeries, pandas Series of shapely geometries,
+    shapely array or list of Polygon / MultiPolygon (holes included).
+    """
+    try:
+        import shapely
+    except ImportError as exc:  # pragma: no cover
+        raise InvalidTypeError("polygons need shapely: pip install 'vicino[geometry]'") from exc
+    values, index = _geometry_values(polygons)
+    n = len(values)
+    if n == 0:
+        raise InvalidInputError("no polygons were given; pass at least two units")
+    units = make_ids(ids, n, index)
+    missing = np.array([v is None for v in values.tolist()])
+    if missing.any():
+        raise InvalidInputError(f"{int(missing.sum())} unit(s) have no geometry (None): ids {examples(units[missing])}")
+    not_geometry = ~np.array([isinstance(v, shapely.Geometry) for v in values.tolist()])
+    if not_geometry.any():
+        raise InvalidTypeError(
+            f"{int(not_geometry.sum())} value(s) are not shapely geometries, ids {examples(units[not_geometry])}; "
+            "read the file with a GIS reader or build shapely polygons first"
+        )
+    kinds = shapely.get_type_id(values)
+    empty = shapely.is_empty(values)
+    wrong = ~np.isin(kinds, (3, 6)) & ~empty  # 3 Polygon, 6 MultiPolygon
+    if wrong.any():
+        names = sorted(set(shapely.get_type_id(values[wrong]).tolist()))
+        raise InvalidInputError(
+            f"{int(wrong.sum())} geometries are not polygons (shapely type ids {names}), ids {examples(units[wrong])}; "
+            "contiguity needs Polygon or MultiPolygon units"
+        )
+    values = values.copy()
+    values[empty] = shapely.Polygon()
+    parts, owner = shapely.get_parts(values, return_index=True)
+    multi = shapely.multipolygons(parts, indices=owner)
+    _, coords, (rings, polys, geoms) = shapely.to_ragged_array(np.asarray(multi), include_z=False)
+    buffers = (
+        np.ascontiguousarray(coords, dtype=np.float64).reshape(-1),
+        np.ascontiguousarray(rings, dtype=np.int64),
+        np.ascontiguousarray(polys, dtype=np.int64),
+        np.ascontiguousarray(geoms, dtype=np.int64),
+    )
+    return buffers, units, empty

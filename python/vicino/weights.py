@@ -62,16 +62,19 @@ class Weights:
         How the matrix was built and transformed.
     """
 
-    __slots__ = ("_indptr", "_indices", "_data", "_ids", "_recipe", "_distances", "_duplicates")
+    __slots__ = ("_indptr", "_indices", "_data", "_ids", "_recipe", "_links", "_duplicates", "_units")
 
-    def __init__(self, indptr, indices, data, ids: pd.Index, recipe=(), *, distances=None, duplicates: int = 0):
+    def __init__(self, indptr, indices, data, ids: pd.Index, recipe=(), *, links=None, units=None, duplicates: int = 0):
         put = object.__setattr__
         put(self, "_indptr", _frozen(indptr, np.int64))
         put(self, "_indices", _frozen(indices, np.int64))
         put(self, "_data", _frozen(data, np.float64))
         put(self, "_ids", ids)
         put(self, "_recipe", tuple(recipe))
-        put(self, "_distances", None if distances is None else _frozen(distances, np.float64))
+        # per-link facts from the builder (distance, border_length), aligned with data
+        put(self, "_links", MappingProxyType({k: _frozen(v, np.float64) for k, v in (links or {}).items()}))
+        # per-unit facts from the builder (perimeter), aligned with ids
+        put(self, "_units", MappingProxyType({k: _frozen(v, np.float64) for k, v in (units or {}).items()}))
         put(self, "_duplicates", int(duplicates))
         if len(self._indptr) != len(ids) + 1 or len(self._indices) != len(self._data):
             raise VicinoError("inconsistent buffers for Weights; build weights with the vicino builders")
@@ -125,12 +128,19 @@ class Weights:
         """How many units share their location with another (as found by the builder)."""
         return self._duplicates
 
+    @property
+    def perimeter(self) -> pd.Series:
+        """Perimeter of each unit, by id, for weights built from polygons."""
+        if "perimeter" not in self._units:
+            raise InvalidParameterError("these weights were not built from polygons, so they know no perimeters")
+        return pd.Series(self._units["perimeter"], index=self._ids, name="perimeter")
+
     def _csr(self):
         return self.n, self._indptr, self._indices, self._data
 
     def _derive(self, data, step: Step) -> "Weights":
         return Weights(self._indptr, self._indices, data, self._ids, self._recipe + (step,),
-                       distances=self._distances, duplicates=self._duplicates)
+                       links=self._links, units=self._units, duplicates=self._duplicates)
 
     # ---- conversions -------------------------------------------------
     def to_scipy(self) -> sp.csr_array:
@@ -152,11 +162,11 @@ class Weights:
         return self.to_scipy().toarray()
 
     def to_edges(self) -> pd.DataFrame:
-        """One row per link: focal id, neighbour id, weight (and distance when known)."""
+        """One row per link: focal id, neighbour id, weight, and what the builder knew of the
+        link (``distance`` for point builders, ``border_length`` for polygon builders)."""
         rows = np.repeat(np.arange(self.n), np.diff(self._indptr))
         out = {"focal": self._ids.take(rows), "neighbor": self._ids.take(self._indices), "weight": self._data}
-        if self._distances is not None:
-            out["distance"] = self._distances
+        out.update(self._links)
         return pd.DataFrame(out)
 
     def neighbors_of(self, unit) -> pd.Series:

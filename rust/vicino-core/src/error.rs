@@ -41,6 +41,17 @@ pub enum Error {
          great_circle expects (longitude, latitude) in degrees, in that order"
     )]
     LongitudeOutOfRange { index: usize, value: f64 },
+    #[error("unit at position {unit} has an unreadable geometry: {reason}")]
+    InvalidGeometry { unit: usize, reason: String },
+    #[error("unknown contiguity rule {name:?}: use \"queen\" (a shared point) or \"rook\" (a shared stretch of border)")]
+    UnknownRule { name: String },
+    #[error("tolerance = {tolerance} is not usable: give a finite number >= 0 in the units of the coordinates")]
+    InvalidTolerance { tolerance: f64 },
+    #[error(
+        "units at positions {i} and {j} are neighbours but their centroids coincide, so the \
+         distance term of the Cliff-Ord weight is infinite; use distance_power=0 or fix the geometry"
+    )]
+    CoincidentCentroids { i: usize, j: usize },
     #[error("k = {k} is not possible with {n} units: k must be at least 1 and at most n - 1")]
     InvalidK { k: usize, n: usize },
     #[error("radius = {radius} is not usable: give a finite number >= 0 in the units of the distance")]

@@ -6,6 +6,7 @@
 //! matrix is a canonical CSR ([`csr`]). Parallel work uses rayon above size
 //! thresholds and never changes a result with the number of threads.
 
+pub mod contiguity;
 pub mod csr;
 pub mod error;
 pub mod lag;

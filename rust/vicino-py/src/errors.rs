@@ -12,10 +12,11 @@ use vicino_core::Error;
 fn class_name(e: &Error) -> &'static str {
     use Error::*;
     match e {
-        Empty | OddCoordinates { .. } | NonFiniteCoordinate { .. } | CoordinateTooLarge { .. }
+        Empty | OddCoordinates { .. } | InvalidGeometry { .. } | NonFiniteCoordinate { .. } | CoordinateTooLarge { .. }
         | LatitudeOutOfRange { .. } | LongitudeOutOfRange { .. } => "InvalidInputError",
         InvalidK { .. } | InvalidRadius { .. } | UnknownMetric { .. } | UnknownStandardization { .. }
-        | UnknownAlternative { .. } | TooFewUnits { .. } => "InvalidParameterError",
+        | UnknownAlternative { .. } | TooFewUnits { .. } | UnknownRule { .. } | InvalidTolerance { .. }
+        | CoincidentCentroids { .. } => "InvalidParameterError",
         Islands { .. } => "IslandError",
         NoWeight { .. } | InvalidMatrix { .. } | NotSquare { .. } | NonFiniteWeight { .. }
         | NegativeWeight { .. } | SelfLinks { .. } => "InvalidMatrixError",
@@ -39,6 +40,8 @@ pub fn to_py(py: Python<'_>, e: Error) -> PyErr {
             | Error::CoordinateTooLarge { index, .. }
             | Error::LatitudeOutOfRange { index, .. }
             | Error::LongitudeOutOfRange { index, .. } => (1, vec![*index]),
+            Error::InvalidGeometry { unit, .. } => (1, vec![*unit]),
+            Error::CoincidentCentroids { i, j } => (2, vec![*i, *j]),
             _ => (0, vec![]),
         };
         inst.setattr("count", count)?;

@@ -2,6 +2,7 @@
 //! buffers, releases the GIL around core calls (see `errors::run`) and maps
 //! errors; all computation lives in the core crate.
 
+mod contiguity;
 mod convert;
 mod errors;
 mod neighbors;
@@ -21,5 +22,7 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(weights::lag_vector, m)?)?;
     m.add_function(wrap_pyfunction!(weights::lag_columns, m)?)?;
     m.add_function(wrap_pyfunction!(stats::moran, m)?)?;
+    m.add_function(wrap_pyfunction!(contiguity::contiguity, m)?)?;
+    m.add_function(wrap_pyfunction!(contiguity::cliff_ord, m)?)?;
     Ok(())
 }

@@ -1,0 +1,181 @@
+//! Contact between two boundary segments: whether they touch, and which
+//! stretch of the first lies on (or, with a tolerance, near) the second.
+//!
+//! Without tolerance the tests are exact: orientation by the robust
+//! predicates of Shewchuk (1997) through `geo`'s `RobustKernel`, so a vertex
+//! touches an edge only when it lies exactly on it. With tolerance t > 0 a
+//! point of segment a is "near" segment b when its distance to b is at most
+//! t; the near points of a form one interval of its parameter, because the
+//! distance to a convex set is convex along a line.
+
+use geo::kernels::{Kernel, Orientation, RobustKernel};
+use geo::Coord;
+
+type P = [f64; 2];
+
+fn orient(p: P, q: P, r: P) -> Orientation {
+    let c = |a: P| Coord { x: a[0], y: a[1] };
+    RobustKernel::orient2d(c(p), c(q), c(r))
+}
+
+fn sub(a: P, b: P) -> P {
+    [a[0] - b[0], a[1] - b[1]]
+}
+fn dot(a: P, b: P) -> f64 {
+    a[0] * b[0] + a[1] * b[1]
+}
+
+/// Parameter of p projected on the line a0 + t (a1 - a0).
+fn param(a0: P, a1: P, p: P) -> f64 {
+    let d = sub(a1, a0);
+    dot(sub(p, a0), d) / dot(d, d)
+}
+
+/// Whether p (known collinear with segment a) lies within its closed extent.
+fn on_collinear(a0: P, a1: P, p: P) -> bool {
+    p[0] >= a0[0].min(a1[0]) && p[0] <= a0[0].max(a1[0]) && p[1] >= a0[1].min(a1[1]) && p[1] <= a0[1].max(a1[1])
+}
+
+/// How two segments meet, exactly.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Meet {
+    /// No common point.
+    Apart,
+    /// Common points but no common stretch.
+    Point,
+    /// Collinear with a common stretch: the parameter interval of it on `a`.
+    Stretch(f64, f64),
+}
+
+/// Exact meeting of segments a = (a0, a1) and b = (b0, b1), both of positive length.
+pub fn meet_exact(a0: P, a1: P, b0: P, b1: P) -> Meet {
+    let (o1, o2) = (orient(a0, a1, b0), orient(a0, a1, b1));
+    let collinear = Orientation::Collinear;
+    if o1 == collinear && o2 == collinear {
+        let (t0, t1) = (param(a0, a1, b0), param(a0, a1, b1));
+        let (lo, hi) = (t0.min(t1).max(0.0), t0.max(t1).min(1.0));
+        // decide overlap by exact coordinates, not by the rounded parameters
+        let any = on_collinear(a0, a1, b0) || on_collinear(a0, a1, b1) || on_collinear(b0, b1, a0) || on_collinear(b0, b1, a1);
+        if !any {
+            return Meet::Apart;
+        }
+        return if hi > lo { Meet::Stretch(lo, hi) } else { Meet::Point };
+    }
+    let (o3, o4) = (orient(b0, b1, a0), orient(b0, b1, a1));
+    if o1 != o2 && o3 != o4 {
+        return Meet::Point;
+    }
+    let touching = (o1 == collinear && on_collinear(a0, a1, b0))
+        || (o2 == collinear && on_collinear(a0, a1, b1))
+        || (o3 == collinear && on_collinear(b0, b1, a0))
+        || (o4 == collinear && on_collinear(b0, b1, a1));
+    if touching {
+        Meet::Point
+    } else {
+        Meet::Apart
+    }
+}
+
+/// Interval of t in [0, 1] where |a0 + t d - c| <= r, if any.
+fn disk(a0: P, d: P, c: P, r: f64) -> Option<(f64, f64)> {
+    let f = sub(a0, c);
+    let (qa, qb, qc) = (dot(d, d), 2.0 * dot(d, f), dot(f, f) - r * r);
+    let disc = qb * qb - 4.0 * qa * qc;
+    if disc < 0.0 {
+        return None;
+    }
+    let s = disc.sqrt();
+    let (lo, hi) = ((-qb - s) / (2.0 * qa), (-qb + s) / (2.0 * qa));
+    clip(lo, hi)
+}
+
+fn clip(lo: f64, hi: f64) -> Option<(f64, f64)> {
+    let (lo, hi) = (lo.max(0.0), hi.min(1.0));
+    (lo <= hi).then_some((lo, hi))
+}
+
+/// Interval of t in [0, 1] where a0 + t (a1 - a0) is within `tol` of
+/// segment b, if any.
+pub fn near_interval(a0: P, a1: P, b0: P, b1: P, tol: f64) -> Option<(f64, f64)> {
+    let d = sub(a1, a0);
+    let e = sub(b1, b0);
+    let le2 = dot(e, e);
+    let mut out: Option<(f64, f64)> = None;
+    let mut join = |iv: Option<(f64, f64)>| {
+        if let Some((l, h)) = iv {
+            out = Some(match out {
+                None => (l, h),
+                Some((ol, oh)) => (ol.min(l), oh.max(h)),
+            });
+        }
+    };
+    join(disk(a0, d, b0, tol));
+    join(disk(a0, d, b1, tol));
+    // the slab over b: 0 <= projection <= 1 and |perpendicular| <= tol
+    let lin = |c0: f64, c1: f64, lo: f64, hi: f64| -> Option<(f64, f64)> {
+        // lo <= c0 + c1 t <= hi
+        if c1 == 0.0 {
+            return (c0 >= lo && c0 <= hi).then_some((0.0, 1.0));
+        }
+        let (t0, t1) = ((lo - c0) / c1, (hi - c0) / c1);
+        clip(t0.min(t1), t0.max(t1))
+    };
+    let f = sub(a0, b0);
+    let len = le2.sqrt();
+    let proj = lin(dot(f, e) / le2, dot(d, e) / le2, 0.0, 1.0);
+    let cross = |u: P, v: P| u[0] * v[1] - u[1] * v[0];
+    let perp = lin(cross(e, f) / len, cross(e, d) / len, -tol, tol);
+    if let (Some(p), Some(q)) = (proj, perp) {
+        join(clip(p.0.max(q.0), p.1.min(q.1)));
+    }
+    out
+}
+
+/// Total length of the union of intervals (sorted in place), times `scale`.
+pub fn union_length(iv: &mut [(f64, f64)], scale: f64) -> f64 {
+    iv.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
+    let mut total = 0.0;
+    let mut cur: Option<(f64, f64)> = None;
+    for &(l, h) in iv.iter() {
+        cur = match cur {
+            Some((cl, ch)) if l <= ch => Some((cl, ch.max(h))),
+            Some((cl, ch)) => {
+                total += ch - cl;
+                Some((l, h))
+            }
+            None => Some((l, h)),
+        };
+    }
+    if let Some((cl, ch)) = cur {
+        total += ch - cl;
+    }
+    total * scale
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn exact_cases() {
+        // crossing, T-junction, collinear overlap, collinear touch, apart
+        assert_eq!(meet_exact([0., 0.], [2., 2.], [0., 2.], [2., 0.]), Meet::Point);
+        assert_eq!(meet_exact([0., 0.], [2., 0.], [1., 0.], [1., 1.]), Meet::Point);
+        assert_eq!(meet_exact([0., 0.], [2., 0.], [1., 0.], [3., 0.]), Meet::Stretch(0.5, 1.0));
+        assert_eq!(meet_exact([0., 0.], [2., 0.], [2., 0.], [3., 0.]), Meet::Point);
+        assert_eq!(meet_exact([0., 0.], [2., 0.], [2.5, 0.], [3., 0.]), Meet::Apart);
+        assert_eq!(meet_exact([0., 0.], [2., 0.], [0., 1.], [2., 1.]), Meet::Apart);
+    }
+
+    #[test]
+    fn near_cases() {
+        // a parallel segment 0.1 away over half its length
+        let iv = near_interval([0., 0.], [2., 0.], [1., 0.1], [3., 0.1], 0.15).unwrap();
+        // points of a within 0.15 of b: t from (1 - sqrt(0.15^2 - 0.1^2)) / 2 to 1
+        let expected = (1.0 - (0.15f64 * 0.15 - 0.01).sqrt()) / 2.0;
+        assert!((iv.0 - expected).abs() < 1e-12 && iv.1 == 1.0, "{iv:?}");
+        assert!(near_interval([0., 0.], [2., 0.], [1., 0.2], [3., 0.2], 0.15).is_none());
+        let mut v = vec![(0.5, 0.7), (0.0, 0.2), (0.1, 0.3)];
+        assert!((union_length(&mut v, 10.0) - 5.0).abs() < 1e-12);
+    }
+}

@@ -1,0 +1,131 @@
+//! Polygons as flat buffers, the layout of shapely's ragged arrays (and of
+//! GeoArrow): interleaved coordinates, ring offsets into coordinates,
+//! polygon offsets into rings, unit offsets into polygons. A unit is a
+//! multipolygon; its first ring in each polygon is the exterior, the others
+//! are holes. Nothing is copied; checks are O(coordinates).
+
+use crate::error::{Error, Result};
+
+/// Borrowed polygons of n units.
+#[derive(Debug, Clone, Copy)]
+pub struct Polygons<'a> {
+    xy: &'a [[f64; 2]],
+    rings: &'a [i64],
+    polys: &'a [i64],
+    units: &'a [i64],
+}
+
+/// A bounding box: [xmin, ymin, xmax, ymax].
+pub type BBox = [f64; 4];
+
+fn offsets_ok(off: &[i64], end: usize) -> bool {
+    !off.is_empty() && off[0] == 0 && off[off.len() - 1] as usize == end && off.windows(2).all(|w| w[0] <= w[1])
+}
+
+impl<'a> Polygons<'a> {
+    /// Check and borrow the buffers. Errors name the unit at fault.
+    pub fn new(coords: &'a [f64], rings: &'a [i64], polys: &'a [i64], units: &'a [i64]) -> Result<Self> {
+        let bad = |reason: &str| Error::InvalidMatrix { reason: format!("polygon buffers: {reason}") };
+        if coords.len() % 2 != 0 {
+            return Err(Error::OddCoordinates { len: coords.len() });
+        }
+        let (xy, _) = coords.as_chunks::<2>();
+        if !offsets_ok(rings, xy.len()) {
+            return Err(bad("ring offsets must rise from 0 to the number of coordinates"));
+        }
+        if !offsets_ok(polys, rings.len() - 1) {
+            return Err(bad("polygon offsets must rise from 0 to the number of rings"));
+        }
+        if !offsets_ok(units, polys.len() - 1) {
+            return Err(bad("unit offsets must rise from 0 to the number of polygons"));
+        }
+        if units.len() < 2 {
+            return Err(Error::Empty);
+        }
+        let this = Self { xy, rings, polys, units };
+        for u in 0..this.n() {
+            for (_, ring) in this.rings_of(u) {
+                for p in ring {
+                    for (axis, &value) in p.iter().enumerate() {
+                        if !value.is_finite() {
+                            return Err(Error::NonFiniteCoordinate { index: u, axis, value });
+                        }
+                        if value.abs() > 1e150 {
+                            return Err(Error::CoordinateTooLarge { index: u, axis, value });
+                        }
+                    }
+                }
+                if !ring.is_empty() && ring.len() < 3 {
+                    return Err(Error::InvalidGeometry { unit: u, reason: format!("a ring has only {} points", ring.len()) });
+                }
+            }
+        }
+        Ok(this)
+    }
+
+    /// Number of units.
+    pub fn n(&self) -> usize {
+        self.units.len() - 1
+    }
+
+    /// The rings of unit u: (is exterior ring, its points).
+    pub fn rings_of(&self, u: usize) -> impl Iterator<Item = (bool, &'a [[f64; 2]])> + '_ {
+        let (p0, p1) = (self.units[u] as usize, self.units[u + 1] as usize);
+        (p0..p1).flat_map(move |p| {
+            let (r0, r1) = (self.polys[p] as usize, self.polys[p + 1] as usize);
+            (r0..r1).map(move |r| (r == r0, &self.xy[self.rings[r] as usize..self.rings[r + 1] as usize]))
+        })
+    }
+
+    /// The boundary segments of unit u (each ring closed, zero-length
+    /// segments skipped).
+    pub fn segments_of(&self, u: usize) -> impl Iterator<Item = ([f64; 2], [f64; 2])> + '_ {
+        self.rings_of(u).flat_map(|(_, ring)| {
+            let closed = ring.first() == ring.last();
+            let m = ring.len();
+            let count = if m < 2 { 0 } else if closed { m - 1 } else { m };
+            (0..count).map(move |k| (ring[k], ring[(k + 1) % m])).filter(|(a, b)| a != b)
+        })
+    }
+
+    /// Whether unit u has no points.
+    pub fn is_empty(&self, u: usize) -> bool {
+        self.rings_of(u).all(|(_, r)| r.is_empty())
+    }
+
+    /// Bounding box of unit u, or None when it is empty.
+    pub fn bbox(&self, u: usize) -> Option<BBox> {
+        let mut b = [f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY];
+        for (_, ring) in self.rings_of(u) {
+            for p in ring {
+                b = [b[0].min(p[0]), b[1].min(p[1]), b[2].max(p[0]), b[3].max(p[1])];
+            }
+        }
+        (b[0] <= b[2]).then_some(b)
+    }
+
+    /// Whether point p lies inside (or on) any exterior ring of unit u:
+    /// holes are ignored, so a unit inside another's hole counts as inside
+    /// it. Crossing-number test.
+    pub fn inside_exterior(&self, u: usize, p: [f64; 2]) -> bool {
+        self.rings_of(u).filter(|(ext, _)| *ext).any(|(_, ring)| {
+            let mut inside = false;
+            let m = ring.len();
+            for k in 0..m {
+                let (a, b) = (ring[k], ring[(k + 1) % m]);
+                if (a[1] > p[1]) != (b[1] > p[1]) {
+                    let x = a[0] + (p[1] - a[1]) / (b[1] - a[1]) * (b[0] - a[0]);
+                    if p[0] < x {
+                        inside = !inside;
+                    }
+                }
+            }
+            inside
+        })
+    }
+
+    /// A point of unit u (its first coordinate), if any.
+    pub fn first_point(&self, u: usize) -> Option<[f64; 2]> {
+        self.rings_of(u).find_map(|(_, r)| r.first().copied())
+    }
+}

@@ -169,8 +169,8 @@ def _geometry_values(polygons) -> tuple[np.ndarray, pd.Index | None]:
 
 
 def as_polygons(polygons, *, ids=None):
-    """Polygons as flat ragged buffers (coordinates, ring, polygon and unit offsets),
-    unit ids, and the mask of empty units.
+    """Polygons as Well-Known Binary buffers (all bytes, and each unit's
+    offsets into them), unit ids, and the mask of empty units.
 
     Accepts a GeoDataFrame, GeoSeries, pandas Series of shapely geometries,
     shapely array or list of Polygon / MultiPolygon (holes included).
@@ -184,16 +184,18 @@ def as_polygons(polygons, *, ids=None):
     if n == 0:
         raise InvalidInputError("no polygons were given; pass at least two units")
     units = make_ids(ids, n, index)
-    missing = np.array([v is None for v in values.tolist()])
+    missing = pd.isna(values)
     if missing.any():
         raise InvalidInputError(f"{int(missing.sum())} unit(s) have no geometry (None): ids {examples(units[missing])}")
-    not_geometry = ~np.array([isinstance(v, shapely.Geometry) for v in values.tolist()])
-    if not_geometry.any():
+    try:
+        kinds = shapely.get_type_id(values)
+    except TypeError:
+        # only on the error path: find which values are not geometries
+        not_geometry = ~np.array([isinstance(v, shapely.Geometry) for v in values.tolist()])
         raise InvalidTypeError(
             f"{int(not_geometry.sum())} value(s) are not shapely geometries, ids {examples(units[not_geometry])}; "
             "read the file with a GIS reader or build shapely polygons first"
-        )
-    kinds = shapely.get_type_id(values)
+        ) from None
     empty = shapely.is_empty(values)
     wrong = ~np.isin(kinds, (3, 6)) & ~empty  # 3 Polygon, 6 MultiPolygon
     if wrong.any():
@@ -204,13 +206,11 @@ def as_polygons(polygons, *, ids=None):
         )
     values = values.copy()
     values[empty] = shapely.Polygon()
-    parts, owner = shapely.get_parts(values, return_index=True)
-    multi = shapely.multipolygons(parts, indices=owner)
-    _, coords, (rings, polys, geoms) = shapely.to_ragged_array(np.asarray(multi), include_z=False)
-    buffers = (
-        np.ascontiguousarray(coords, dtype=np.float64).reshape(-1),
-        np.ascontiguousarray(rings, dtype=np.int64),
-        np.ascontiguousarray(polys, dtype=np.int64),
-        np.ascontiguousarray(geoms, dtype=np.int64),
-    )
+    # Well-Known Binary, 2-D, written by GEOS in C; the core decodes it into
+    # flat coordinate and offset buffers in parallel
+    wkb = shapely.to_wkb(values, output_dimension=2).tolist()
+    sizes = np.fromiter(map(len, wkb), dtype=np.int64, count=n)
+    offsets = np.zeros(n + 1, dtype=np.int64)
+    np.cumsum(sizes, out=offsets[1:])
+    buffers = (np.frombuffer(b"".join(wkb), dtype=np.uint8), offsets)
     return buffers, units, empty

@@ -9,6 +9,7 @@
 pub mod contiguity;
 pub mod csr;
 pub mod error;
+pub mod io;
 pub mod lag;
 pub mod neighbors;
 pub mod spectral;

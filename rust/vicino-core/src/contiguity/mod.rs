@@ -115,18 +115,30 @@ fn covered(from: &[Seg], to: &[Seg], tol: f64, metric: Metric, contact: &mut boo
     total
 }
 
+/// Buffers reused across the pairs one thread examines.
+#[derive(Default)]
+struct Scratch {
+    si: Vec<Seg>,
+    sj: Vec<Seg>,
+    iv: Vec<(f64, f64)>,
+}
+
 /// Contact of units i and j: None when they are not neighbours under queen,
 /// else (rook, shared length).
-fn pair(p: &Polygons<'_>, i: usize, j: usize, boxes: &[Option<BBox>], tol: f64, metric: Metric) -> Option<(bool, f64)> {
+fn pair(p: &Polygons<'_>, i: usize, j: usize, boxes: &[Option<BBox>], tol: f64, metric: Metric, s: &mut Scratch) -> Option<(bool, f64)> {
     let (bi, bj) = (boxes[i]?, boxes[j]?);
     let (wi, wj) = (widen(bi, tol), widen(bj, tol));
-    let si: Vec<Seg> = p.segments_of(i).filter(|(a, b)| seg_meets_box(*a, *b, &wj)).collect();
-    let sj: Vec<Seg> = p.segments_of(j).filter(|(a, b)| seg_meets_box(*a, *b, &wi)).collect();
+    s.si.clear();
+    s.si.extend(p.segments_of(i).filter(|(a, b)| seg_meets_box(*a, *b, &wj)));
+    if s.si.is_empty() && !inside_box(&bi, &bj) && !inside_box(&bj, &bi) {
+        return None;
+    }
+    s.sj.clear();
+    s.sj.extend(p.segments_of(j).filter(|(a, b)| seg_meets_box(*a, *b, &wi)));
     let mut contact = false;
-    let mut iv = Vec::new();
-    let mut length = covered(&si, &sj, tol, metric, &mut contact, &mut iv);
+    let mut length = covered(&s.si, &s.sj, tol, metric, &mut contact, &mut s.iv);
     if tol > 0.0 && contact {
-        let other = covered(&sj, &si, tol, metric, &mut contact, &mut iv);
+        let other = covered(&s.sj, &s.si, tol, metric, &mut contact, &mut s.iv);
         length = 0.5 * (length + other);
     }
     let mut rook = if tol == 0.0 { length > 0.0 } else { length > tol };
@@ -162,7 +174,7 @@ pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric)
     let found: Vec<Vec<(usize, f64)>> = (0..n)
         .into_par_iter()
         .with_min_len(64)
-        .map(|i| {
+        .map_init(Scratch::default, |scratch, i| {
             let Some(b) = boxes[i] else { return Vec::new() };
             let w = widen(b, tolerance);
             let env = AABB::from_corners([w[0], w[1]], [w[2], w[3]]);
@@ -170,7 +182,7 @@ pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric)
                 .locate_in_envelope_intersecting(&env)
                 .filter(|g| g.data > i)
                 .filter_map(|g| {
-                    let (rook, len) = pair(p, i, g.data, &boxes, tolerance, lengths)?;
+                    let (rook, len) = pair(p, i, g.data, &boxes, tolerance, lengths, scratch)?;
                     (rule == Rule::Queen || rook).then_some((g.data, len))
                 })
                 .collect();
@@ -178,19 +190,34 @@ pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric)
             out
         })
         .collect();
-    // both directions of every link
-    let mut rows: Vec<Vec<(usize, f64)>> = found.clone();
-    for (i, links) in found.iter().enumerate() {
-        for &(j, len) in links {
-            rows[j].push((i, len));
-        }
-    }
-    let graph = Csr::from_rows(rows);
+    let graph = symmetric_from_upper(&found);
     let perimeter = (0..n)
         .into_par_iter()
         .map(|u| p.segments_of(u).map(|(a, b)| seg_length(lengths, a, b)).sum())
         .collect();
     Ok(Contiguity { graph, perimeter, empty })
+}
+
+/// The symmetric CSR whose upper triangle is given row by row (columns
+/// sorted and above the diagonal): each row is its lower part (from the
+/// transposed upper rows, met in row order, hence sorted) then its upper part.
+fn symmetric_from_upper(upper: &[Vec<(usize, f64)>]) -> Csr {
+    let n = upper.len();
+    let mut lower: Vec<Vec<(usize, f64)>> = vec![Vec::new(); n];
+    for (i, links) in upper.iter().enumerate() {
+        for &(j, v) in links {
+            lower[j].push((i, v));
+        }
+    }
+    let mut indptr = Vec::with_capacity(n + 1);
+    indptr.push(0i64);
+    for i in 0..n {
+        indptr.push(indptr[i] + (lower[i].len() + upper[i].len()) as i64);
+    }
+    let row = |i: usize| lower[i].iter().chain(&upper[i]);
+    let indices = (0..n).into_par_iter().flat_map_iter(|i| row(i).map(|&(j, _)| j as i64)).collect();
+    let data = (0..n).into_par_iter().flat_map_iter(|i| row(i).map(|&(_, v)| v)).collect();
+    Csr::from_canonical(n, indptr, indices, data)
 }
 
 /// Centroid of unit u (area-weighted over its polygons, holes subtracted),

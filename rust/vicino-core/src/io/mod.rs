@@ -1,0 +1,3 @@
+//! Reading geometry from open standard encodings into flat buffers.
+
+pub mod wkb;

@@ -6,6 +6,12 @@ villages spread thinly over open sea. The invented indicator is the share of
 households with a working rain-water cistern, which follows the valley's
 rainfall gradient, with a cluster of well-served villages around the market
 town of Ostmere. Every name and number here is made up.
+
+Each settlement of the vale also has a district: the Voronoi cell of the
+settlement, clipped to an invented coastline and with its borders surveyed to
+a 100 m grid (so a few short borders shrink to a corner where four districts
+meet). Each settlement of the skerries stands on its own small islet, which
+touches nothing. The districts need shapely; without it the demo skips them.
 """
 
 from __future__ import annotations
@@ -18,7 +24,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .build import k_nearest, within_distance
+from .build import cliff_ord, contiguity, k_nearest, within_distance
 from .stats import moran
 
 _FIRST = ["Ost", "Bran", "Hal", "Wend", "Kel", "Mor", "Tav", "Lis", "Dun", "Fen", "Gar", "Rook", "Sel", "Thir", "Ush", "Vell"]
@@ -32,6 +38,14 @@ CAUTIONS = (
     "modelling assumption: compare candidates, as here, rather than trusting one. Weights built from "
     "a network (trade, commuting, contacts) must not themselves depend on the outcome studied."
 )
+DISTRICT_CAUTION = (
+    "The districts are drawn around the settlements themselves, so their contiguity is one more "
+    "view of nearness, not independent information about who neighbours whom."
+)
+NO_SHAPELY = "Districts skipped: they need shapely (pip install 'vicino[geometry]')."
+
+SURVEY_GRID_KM = 0.1  # district borders are surveyed to this grid
+ISLET_RADIUS_KM = 1.5  # each settlement of the skerries stands on an islet this wide (radius)
 
 
 def settlements(seed: int = 7) -> pd.DataFrame:
@@ -48,7 +62,11 @@ def settlements(seed: int = 7) -> pd.DataFrame:
     xs, ys = np.concatenate([x, sx]), np.concatenate([y, sy])
     pool = [a + m + b for a in _FIRST for m in _MIDDLE for b in _LAST]
     names = [pool[i] for i in rng.choice(len(pool), size=len(xs), replace=False)]
-    names[int(np.argmin((xs - 70) ** 2 + (ys - 25) ** 2))] = "Ostmere"
+    # the settlement nearest the hub is Ostmere (swapping names if another one drew it)
+    hub_at = int(np.argmin((xs - 70) ** 2 + (ys - 25) ** 2))
+    if "Ostmere" in names:
+        names[names.index("Ostmere")] = names[hub_at]
+    names[hub_at] = "Ostmere"
     region = np.where(np.arange(len(xs)) < n_main, "Brannock Vale", "Tarrow Skerries")
     # rainfall gradient along the vale plus a well-served cluster near Ostmere
     hub = np.exp(-((xs - 70) ** 2 + (ys - 25) ** 2) / (2 * 12.0**2))
@@ -61,15 +79,150 @@ def settlements(seed: int = 7) -> pd.DataFrame:
     )
 
 
+def coastline(seed: int = 7, places: pd.DataFrame | None = None):
+    """The invented coast of the Brannock Vale: a smooth wobbly closed curve (a shapely Polygon).
+
+    A wobbly ellipse along the valley, scaled so that every settlement of
+    the vale lies inside with a margin; the skerries lie far outside.
+    """
+    import shapely
+
+    if places is None:
+        places = settlements(seed)
+    vale = places.loc[places["region"] == "Brannock Vale", ["x", "y"]].to_numpy()
+    centre, angle = np.array([60.0, 21.0]), np.arctan(0.35)
+    axes = np.array([[np.cos(angle), np.sin(angle)], [-np.sin(angle), np.cos(angle)]])
+    phase = np.random.default_rng([seed, 1]).uniform(0, 2 * np.pi, 3)
+
+    def reach(theta):  # distance from the centre to the coast, before scaling
+        ellipse = 1 / np.hypot(np.cos(theta) / 70.0, np.sin(theta) / 44.0)
+        wobble = 0.08 * np.sin(3 * theta + phase[0]) + 0.05 * np.sin(5 * theta + phase[1])
+        return ellipse * (1 + wobble + 0.025 * np.sin(11 * theta + phase[2]))
+
+    local = (vale - centre) @ axes.T
+    scale = 1.04 * float(np.max(np.hypot(local[:, 0], local[:, 1]) / reach(np.arctan2(local[:, 1], local[:, 0]))))
+    theta = np.linspace(0, 2 * np.pi, 360, endpoint=False)
+    r = scale * reach(theta)
+    return shapely.Polygon(np.column_stack([r * np.cos(theta), r * np.sin(theta)]) @ axes + centre)
+
+
+def _polygonal(geoms: np.ndarray) -> np.ndarray:
+    """Each geometry as a Polygon, or a MultiPolygon when it has several pieces
+    (an overlay may return a one-piece MultiPolygon, or stray lines and points)."""
+    import shapely
+
+    for i in np.flatnonzero(shapely.get_type_id(geoms) != 3):
+        parts = shapely.get_parts(geoms[i])
+        parts = parts[shapely.get_type_id(parts) == 3]
+        geoms[i] = parts[0] if len(parts) == 1 else shapely.multipolygons(parts)
+    return geoms
+
+
+def districts(seed: int = 7, places: pd.DataFrame | None = None) -> pd.Series:
+    """The invented districts, one per settlement, as a pandas Series of shapely geometries.
+
+    The index holds the settlement names, in the order of :func:`settlements`.
+    A settlement of the vale gets its Voronoi cell clipped to
+    :func:`coastline`; each settlement of the skerries gets a small round
+    islet of radius ``ISLET_RADIUS_KM``. Borders are snapped to a grid of
+    ``SURVEY_GRID_KM``. Needs shapely.
+    """
+    import shapely
+
+    if places is None:
+        places = settlements(seed)
+    coast = coastline(seed, places)
+    points = shapely.points(places[["x", "y"]].to_numpy())
+    vale = (places["region"] == "Brannock Vale").to_numpy()
+    cells = shapely.get_parts(shapely.voronoi_polygons(shapely.multipoints(points[vale]), extend_to=coast.buffer(10.0)))
+    # the cells come in no set order: match each settlement to the cell it lies in
+    settlement, cell = shapely.STRtree(cells).query(points[vale], predicate="within")
+    order = np.empty(int(vale.sum()), dtype=np.int64)
+    order[settlement] = cell
+    shapes = np.empty(len(places), dtype=object)
+    # borders on the survey grid: the cells' corners are rounded first (a corner shared
+    # by several cells is rounded alike in each), then clipped in grid precision
+    grid = SURVEY_GRID_KM
+    shapes[vale] = shapely.intersection(shapely.set_precision(cells[order], grid), shapely.set_precision(coast, grid),
+                                        grid_size=grid)
+    shapes[~vale] = shapely.set_precision(shapely.buffer(points[~vale], ISLET_RADIUS_KM, quad_segs=8), grid)
+    shapes = _polygonal(shapes)
+    return pd.Series(shapes, index=places.index, name="district")
+
+
+def _counts_summary(weights: dict) -> pd.DataFrame:
+    return pd.DataFrame(
+        [{"weights": name, "links": w.nnz, "min": int(w.counts.min()), "mean": round(float(w.counts.mean()), 2),
+          "max": int(w.counts.max()), "islands": len(w.islands)} for name, w in weights.items()]
+    ).set_index("weights")
+
+
+def _fill(text: str, width: int = 78) -> str:
+    """Wrap text; a no-break space (\\xa0) keeps two words on one line."""
+    return textwrap.fill(text, width=width).replace("\xa0", " ")
+
+
+def _names(names, width: int = 78) -> str:
+    return textwrap.fill(", ".join(map(str, names)), width=width, initial_indent="  ", subsequent_indent="  ")
+
+
+def _district_section(places: pd.DataFrame, seed: int):
+    """Contiguity of the districts: printed report, weights, and tables (None without shapely)."""
+    try:
+        import shapely  # noqa: F401
+    except ImportError:
+        print(NO_SHAPELY)
+        return None
+    shapes = districts(seed, places)
+    built = {"queen": contiguity(shapes, "queen"), "rook": contiguity(shapes, "rook")}
+    counts = pd.DataFrame({"region": places["region"], "queen": built["queen"].counts,
+                           "rook": built["rook"].counts, "area_km2": shapely.area(shapes.to_numpy()).round(2)},
+                          index=places.index)
+    summary = _counts_summary(built)
+    in_vale = int(places["region"].eq("Brannock Vale").sum())
+    print(_fill(
+        f"Districts of the vale: {in_vale} Voronoi cells of the settlements, clipped to the coast, "
+        f"borders on a {SURVEY_GRID_KM * 1000:.0f}\xa0m survey grid. Islets of the skerries: "
+        f"{len(places) - in_vale} discs of {ISLET_RADIUS_KM:g}\xa0km radius. Queen: districts sharing a "
+        "point of border; rook: sharing a stretch of border."))
+    print()
+    print(summary.to_string())
+    corner = (built["queen"].nnz - built["rook"].nnz) // 2
+    if corner:
+        print(f"\nQueen adds {corner} pairs of districts that meet only at a corner.")
+    else:
+        print("\nQueen and rook agree: no two districts meet only at a corner.")
+    same = built["queen"].islands.equals(built["rook"].islands)
+    for rule in ("queen",) if same else ("queen", "rook"):
+        islands = built[rule].islands
+        where = places.loc[islands, "region"].value_counts()
+        parts = ", ".join(f"{count} in {region}" for region, count in where.items())
+        under = "queen and rook" if same else rule
+        print()
+        print(_fill(f"{len(islands)} districts touch no other, islands under {under} "
+                    f"({parts.replace(' ', chr(0xA0))}):"))
+        print(_names(islands))
+        print("  Their rows stay empty and their lag is 0.")
+    print()
+    print(_fill(DISTRICT_CAUTION))
+    built["Cliff-Ord"] = cliff_ord(shapes)  # border shares over centroid distances, rook links
+    return built, summary, counts
+
+
 def _rule(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
 
 
 def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations: int = 999) -> dict[str, pd.DataFrame]:
-    """Run the demo, print its report and write its tables as CSV to ``out_dir``."""
+    """Run the demo, print its report and write its tables as CSV to ``out_dir``.
+
+    Without shapely the districts are skipped (with a message), and so are
+    their tables and their rows of the Moran table.
+    """
     places = settlements(seed)
     print("vicino demo: the Brannock Vale and the Tarrow Skerries (an invented region)")
-    print(f"{len(places)} settlements, coordinates in km; indicator: share of households with a cistern (%)")
+    print(f"{len(places)} settlements, coordinates in km")
+    print("indicator: share of households with a cistern (%)")
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -79,29 +232,38 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
             "within 15 km": within_distance(places, 15.0),
         }
 
-    print(_rule("1. Candidate weights and their neighbour counts"))
+    print(_rule("1. Candidate weights from points and their neighbour counts"))
     counts = pd.DataFrame({name: w.counts for name, w in candidates.items()})
-    summary = pd.DataFrame(
-        [{"weights": name, "links": w.nnz, "min": int(w.counts.min()), "mean": round(float(w.counts.mean()), 2),
-          "max": int(w.counts.max()), "islands": len(w.islands)} for name, w in candidates.items()]
-    ).set_index("weights")
+    summary = _counts_summary(candidates)
     print(summary.to_string())
     for name, w in candidates.items():
         if len(w.islands):
             where = places.loc[w.islands, "region"].value_counts()
             parts = ", ".join(f"{count} in {region}" for region, count in where.items())
-            print(f"\n'{name}' leaves {len(w.islands)} settlements without neighbours ({parts}):")
-            print(textwrap.fill(", ".join(map(str, w.islands)), width=88, initial_indent="  ", subsequent_indent="  "))
+            print(f"\n'{name}' leaves {len(w.islands)} settlements without neighbours")
+            print(f"({parts}):")
+            print(_names(w.islands))
             print("  Their rows stay empty and their lag is 0; a k-nearest candidate reaches them.")
 
-    print(_rule("2. Row-standardized weights and spatial lags"))
+    print(_rule("2. Districts: queen and rook contiguity"))
+    district = _district_section(places, seed)
+    tables = {"settlements": places, "neighbour_counts": counts, "candidates": summary}
+    if district is not None:
+        built, contiguity_summary, district_counts = district
+        candidates.update(built)
+        tables["contiguity"] = contiguity_summary
+        tables["district_counts"] = district_counts
+
+    print(_rule("3. Row-standardized weights and spatial lags"))
     standardized = {name: w.standardize("row", islands="keep") for name, w in candidates.items()}
     lags = pd.DataFrame({"cistern_share": places["cistern_share"]})
     for name, w in standardized.items():
         lags[f"lag, {name}"] = w.lag(places["cistern_share"])
-    print(lags.head(8).round(2).to_string())
+    shown = [c for c in lags.columns if c in ("cistern_share", "lag, 6 nearest", "lag, within 15 km", "lag, queen")]
+    print(lags[shown].head(8).round(2).to_string())
+    print(f"(first 8 settlements; all {len(standardized)} lags are in lags.csv)")
 
-    print(_rule("3. Moran's I of the cistern share under each candidate"))
+    print(_rule("4. Moran's I of the cistern share under each candidate"))
     rows = []
     for name, w in standardized.items():
         r = moran(places["cistern_share"], w, permutations=permutations, seed=seed)
@@ -109,18 +271,22 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
                      "z (randomization)": r.randomization.z, "p (randomization)": r.randomization.p_value,
                      "p (permutation)": r.permutation.p_value})
     table = pd.DataFrame(rows).set_index("weights")
-    print(table.to_string(float_format=lambda v: f"{v:.4g}"))
-    print(f"\n(permutation p-values from {permutations} permutations: the smallest possible is "
-          f"{1 / (permutations + 1):.4g})")
+    short = {"z (randomization)": "z (rand)", "p (randomization)": "p (rand)", "p (permutation)": "p (perm)"}
+    print(table.rename(columns=short).to_string(float_format=lambda v: f"{v:.4g}"))
+    print("\nrand: under randomization; perm: from permutations")
+    print(f"({permutations} permutations: the smallest possible p is {1 / (permutations + 1):.4g})")
+    if district is not None:
+        print("queen, rook and Cliff-Ord: the districts, row-standardized, islands kept")
 
     print(_rule("Reading the results"))
-    print(textwrap.fill(CAUTIONS, width=88))
+    print(_fill(CAUTIONS))
 
-    tables = {"settlements": places, "neighbour_counts": counts, "candidates": summary, "lags": lags, "moran": table}
+    tables.update({"lags": lags, "moran": table})
     if out_dir is not None:
         out = Path(out_dir)
         out.mkdir(parents=True, exist_ok=True)
         for name, df in tables.items():
             df.to_csv(out / f"{name}.csv")
-        print(f"\nTables written to {out.resolve()}: " + ", ".join(f"{n}.csv" for n in tables))
+        print(f"\nTables written to {out.resolve()}:")
+        print(_names(f"{n}.csv" for n in tables))
     return tables

@@ -121,7 +121,7 @@ impl<'a> CsrRef<'a> {
 
     /// Sum of each row.
     pub fn row_sums(&self) -> Vec<f64> {
-        self.map_rows(|_, _, vals| vals.iter().sum())
+        self.map_rows(|_, _, vals| vals.iter().fold(0.0, |a, b| a + b))
     }
 
     /// Sum of each column.

@@ -66,7 +66,8 @@ fn lag_rows(w: CsrRef<'_>, x: &[f64], first: usize, out: &mut [f64]) {
             }
         }
         let (a, b) = (indptr[i] as usize, indptr[i + 1] as usize);
-        *slot = indices[a..b].iter().zip(&data[a..b]).map(|(&j, &v)| v * x[j as usize]).sum();
+        // fold from +0.0: `sum` of an empty row would give -0.0
+        *slot = indices[a..b].iter().zip(&data[a..b]).fold(0.0, |acc, (&j, &v)| acc + v * x[j as usize]);
     }
 }
 

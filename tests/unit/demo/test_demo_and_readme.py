@@ -20,7 +20,7 @@ ROOT = Path(__file__).resolve().parents[3]
 def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     tables = demo.run(tmp_path, permutations=99)
     out = capsys.readouterr().out
-    for name in ("settlements", "neighbour_counts", "candidates", "lags", "moran"):
+    for name in ("settlements", "neighbour_counts", "candidates", "contiguity", "district_counts", "lags", "moran"):
         assert (tmp_path / f"{name}.csv").stat().st_size > 0
     places = tables["settlements"]
     # reference: numpy brute force on the generated coordinates; a settlement is an
@@ -35,8 +35,110 @@ def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     # reference: the k-nearest candidates leave nobody out (k < n)  # common practice
     assert int(tables["candidates"].loc["6 nearest", "islands"]) == 0
     csv = pd.read_csv(tmp_path / "moran.csv", index_col=0)
-    assert list(csv.index) == ["6 nearest", "10 nearest", "within 15 km"]
+    assert list(csv.index) == ["6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord"]
     assert "Cautions" in out and "not evidence of a cause" in out
+    # the report stays readable in a terminal
+    assert max(len(line) for line in out.splitlines()) <= 80, max(out.splitlines(), key=len)
+
+
+def _reference_adjacency(shapes: np.ndarray):
+    """Pairs of distinct districts that intersect, found by shapely alone."""
+    import shapely
+
+    i, j = shapely.STRtree(shapes).query(shapes, predicate="intersects")
+    keep = i != j
+    return i[keep], j[keep]
+
+
+def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
+    shapely = pytest.importorskip("shapely")
+    tables = demo.run(tmp_path, permutations=19)
+    capsys.readouterr()
+    places = tables["settlements"]
+    shapes = demo.districts(7)
+    assert list(shapes.index) == list(places.index)
+    g = shapes.to_numpy()
+    i, j = _reference_adjacency(g)
+    n = len(g)
+    queen = np.bincount(i, minlength=n)  # reference: shapely STRtree intersects, self pairs removed
+    # reference: shapely DE-9IM relate: interiors apart, boundaries meeting in a line
+    shared_line = shapely.relate_pattern(g[i], g[j], "F***1****")
+    rook = np.bincount(i[shared_line], minlength=n)
+    counts = pd.read_csv(tmp_path / "district_counts.csv", index_col=0)
+    assert list(counts.index) == list(places.index)
+    np.testing.assert_array_equal(counts["queen"].to_numpy(), queen)
+    np.testing.assert_array_equal(counts["rook"].to_numpy(), rook)
+    summary = pd.read_csv(tmp_path / "contiguity.csv", index_col=0)
+    assert list(summary.index) == ["queen", "rook"]
+    for rule, ref in (("queen", queen), ("rook", rook)):
+        row = summary.loc[rule]
+        # reference: numpy summaries of the shapely counts
+        assert (row["links"], row["min"], row["max"], row["islands"]) == (ref.sum(), ref.min(), ref.max(), (ref == 0).sum())
+        assert row["mean"] == pytest.approx(ref.mean(), abs=0.005)
+    # the survey grid makes some districts meet only at a corner, so the rules differ
+    assert queen.sum() > rook.sum()  # reference: the shapely counts above
+    # the districts tile the coast without overlapping, one settlement in each
+    coast = demo.coastline(7)
+    vale = (places["region"] == "Brannock Vale").to_numpy()
+    assert not shapely.relate_pattern(g[i], g[j], "T********").any()  # reference: shapely relate, interiors
+    # reference: shapely area; the grid moves borders by at most half a cell
+    assert shapely.area(g[vale]).sum() == pytest.approx(coast.area, rel=1e-3)
+    points = shapely.points(places[["x", "y"]].to_numpy())
+    # reference: shapely distance; rounding to the grid moves a border by less than a grid cell
+    assert (shapely.distance(points, g) <= demo.SURVEY_GRID_KM).all()
+    assert shapely.contains(g, points).all()  # reference: shapely contains (true for the demo seed)
+
+
+def test_islets_are_exactly_the_skerries_and_islands(tmp_path, capsys):
+    shapely = pytest.importorskip("shapely")
+    tables = demo.run(tmp_path, permutations=19)
+    out = capsys.readouterr().out
+    places = tables["settlements"]
+    g = demo.districts(7).to_numpy()
+    i, _ = _reference_adjacency(g)
+    alone = set(places.index[np.bincount(i, minlength=len(g)) == 0])  # reference: shapely STRtree intersects
+    skerries = set(places.index[places["region"] == "Tarrow Skerries"])
+    assert alone == skerries
+    islets = g[(places["region"] == "Tarrow Skerries").to_numpy()]
+    assert not shapely.intersects(islets, demo.coastline(7)).any()  # reference: shapely intersects
+    for rule in ("queen", "rook"):
+        w = vicino.contiguity(demo.districts(7), rule)
+        assert set(w.islands) == skerries  # reference: the shapely set above
+        assert int(tables["contiguity"].loc[rule, "islands"]) == len(skerries)
+    block = out.split("islands under queen and rook", 1)[1].split("lag is 0", 1)[0]
+    assert {name for name in skerries if name in block} == skerries
+
+
+def test_moran_table_has_the_contiguity_rows(tmp_path, capsys):
+    pytest.importorskip("shapely")
+    tables = demo.run(tmp_path, permutations=19)
+    capsys.readouterr()
+    places = tables["settlements"]
+    moran_table = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    assert {"queen", "rook", "Cliff-Ord"} <= set(moran_table.index)
+    g = demo.districts(7).to_numpy()
+    i, j = _reference_adjacency(g)
+    n = len(g)
+    # reference: numpy, I = (n / S0) z'Wz / z'z with W the shapely adjacency, rows summing
+    # to 1 and the islands' rows left empty (so S0 is the number of non-islands)
+    w = np.zeros((n, n))
+    w[i, j] = 1.0
+    rows = w.sum(axis=1)
+    w[rows > 0] /= rows[rows > 0, None]
+    z = places["cistern_share"].to_numpy() - places["cistern_share"].mean()
+    expected = n / w.sum() * (z @ w @ z) / (z @ z)
+    assert moran_table.loc["queen", "I"] == pytest.approx(expected, rel=1e-10)
+    expected_mean = np.full(3, -1 / (n - 1))  # common practice: E[I] = -1/(n - 1)
+    np.testing.assert_allclose(moran_table.loc[["queen", "rook", "Cliff-Ord"], "E[I]"], expected_mean, rtol=1e-12)
+
+
+def test_demo_skips_the_districts_without_shapely(tmp_path, capsys, monkeypatch):
+    monkeypatch.setitem(sys.modules, "shapely", None)  # makes `import shapely` fail
+    tables = demo.run(tmp_path, permutations=19)
+    out = capsys.readouterr().out
+    assert demo.NO_SHAPELY in out
+    assert list(tables["moran"].index) == ["6 nearest", "10 nearest", "within 15 km"]
+    assert not (tmp_path / "contiguity.csv").exists() and (tmp_path / "moran.csv").exists()
 
 
 def test_command_line_demo_runs(tmp_path):

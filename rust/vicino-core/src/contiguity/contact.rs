@@ -6,7 +6,11 @@
 //! touches an edge only when it lies exactly on it. With tolerance t > 0 a
 //! point of segment a is "near" segment b when its distance to b is at most
 //! t; the near points of a form one interval of its parameter, because the
-//! distance to a convex set is convex along a line.
+//! distance to a convex set is convex along a line. The stretch that counts
+//! as shared is narrower: the points of a within t of b that also project
+//! onto b, for segments within 10 degrees of parallel, so that two units
+//! meeting at a corner do not gain a "shared stretch" of length about 2t
+//! from the edges around the corner.
 
 use geo::kernels::{Kernel, Orientation, RobustKernel};
 use geo::Coord;
@@ -43,6 +47,9 @@ pub enum Meet {
     Apart,
     /// Common points but no common stretch.
     Point,
+    /// The segments cross at a point inside both (the boundaries cross, so
+    /// the units overlap).
+    Cross,
     /// Collinear with a common stretch: the parameter interval of it on `a`.
     Stretch(f64, f64),
 }
@@ -63,7 +70,8 @@ pub fn meet_exact(a0: P, a1: P, b0: P, b1: P) -> Meet {
     }
     let (o3, o4) = (orient(b0, b1, a0), orient(b0, b1, a1));
     if o1 != o2 && o3 != o4 {
-        return Meet::Point;
+        let proper = o1 != collinear && o2 != collinear && o3 != collinear && o4 != collinear;
+        return if proper { Meet::Cross } else { Meet::Point };
     }
     let touching = (o1 == collinear && on_collinear(a0, a1, b0))
         || (o2 == collinear && on_collinear(a0, a1, b1))
@@ -94,26 +102,33 @@ fn clip(lo: f64, hi: f64) -> Option<(f64, f64)> {
     (lo <= hi).then_some((lo, hi))
 }
 
-/// Interval of t in [0, 1] where a0 + t (a1 - a0) is within `tol` of
-/// segment b, if any.
-pub fn near_interval(a0: P, a1: P, b0: P, b1: P, tol: f64) -> Option<(f64, f64)> {
+/// Segments count as near-coincident only within this angle of parallel.
+pub const MAX_ANGLE_DEGREES: f64 = 10.0;
+
+/// Whether segments a and b come within `tol` of each other.
+pub fn near(a0: P, a1: P, b0: P, b1: P, tol: f64) -> bool {
+    if !matches!(meet_exact(a0, a1, b0, b1), Meet::Apart) {
+        return true;
+    }
+    let d = sub(a1, a0);
+    let e = sub(b1, b0);
+    // apart segments are nearest at an endpoint of one of them
+    disk(a0, d, b0, tol).is_some()
+        || disk(a0, d, b1, tol).is_some()
+        || disk(b0, e, a0, tol).is_some()
+        || disk(b0, e, a1, tol).is_some()
+        || slab(a0, a1, b0, b1, tol).is_some()
+        || slab(b0, b1, a0, a1, tol).is_some()
+}
+
+/// Interval of t in [0, 1] where a0 + t (a1 - a0) projects onto segment b
+/// and lies within `tol` of its line.
+fn slab(a0: P, a1: P, b0: P, b1: P, tol: f64) -> Option<(f64, f64)> {
     let d = sub(a1, a0);
     let e = sub(b1, b0);
     let le2 = dot(e, e);
-    let mut out: Option<(f64, f64)> = None;
-    let mut join = |iv: Option<(f64, f64)>| {
-        if let Some((l, h)) = iv {
-            out = Some(match out {
-                None => (l, h),
-                Some((ol, oh)) => (ol.min(l), oh.max(h)),
-            });
-        }
-    };
-    join(disk(a0, d, b0, tol));
-    join(disk(a0, d, b1, tol));
-    // the slab over b: 0 <= projection <= 1 and |perpendicular| <= tol
+    // lo <= c0 + c1 t <= hi
     let lin = |c0: f64, c1: f64, lo: f64, hi: f64| -> Option<(f64, f64)> {
-        // lo <= c0 + c1 t <= hi
         if c1 == 0.0 {
             return (c0 >= lo && c0 <= hi).then_some((0.0, 1.0));
         }
@@ -122,13 +137,21 @@ pub fn near_interval(a0: P, a1: P, b0: P, b1: P, tol: f64) -> Option<(f64, f64)>
     };
     let f = sub(a0, b0);
     let len = le2.sqrt();
-    let proj = lin(dot(f, e) / le2, dot(d, e) / le2, 0.0, 1.0);
     let cross = |u: P, v: P| u[0] * v[1] - u[1] * v[0];
-    let perp = lin(cross(e, f) / len, cross(e, d) / len, -tol, tol);
-    if let (Some(p), Some(q)) = (proj, perp) {
-        join(clip(p.0.max(q.0), p.1.min(q.1)));
+    let proj = lin(dot(f, e) / le2, dot(d, e) / le2, 0.0, 1.0)?;
+    let perp = lin(cross(e, f) / len, cross(e, d) / len, -tol, tol)?;
+    clip(proj.0.max(perp.0), proj.1.min(perp.1))
+}
+
+/// Interval of t in [0, 1] where a0 + t (a1 - a0) runs alongside segment b
+/// within `tol` (see the module notes), if any.
+pub fn coincident_interval(a0: P, a1: P, b0: P, b1: P, tol: f64) -> Option<(f64, f64)> {
+    let (d, e) = (sub(a1, a0), sub(b1, b0));
+    let cos = dot(d, e).abs() / (dot(d, d) * dot(e, e)).sqrt();
+    if cos < MAX_ANGLE_DEGREES.to_radians().cos() {
+        return None;
     }
-    out
+    slab(a0, a1, b0, b1, tol)
 }
 
 /// Total length of the union of intervals (sorted in place), times `scale`.
@@ -159,7 +182,7 @@ mod tests {
     #[test]
     fn exact_cases() {
         // crossing, T-junction, collinear overlap, collinear touch, apart
-        assert_eq!(meet_exact([0., 0.], [2., 2.], [0., 2.], [2., 0.]), Meet::Point);
+        assert_eq!(meet_exact([0., 0.], [2., 2.], [0., 2.], [2., 0.]), Meet::Cross);
         assert_eq!(meet_exact([0., 0.], [2., 0.], [1., 0.], [1., 1.]), Meet::Point);
         assert_eq!(meet_exact([0., 0.], [2., 0.], [1., 0.], [3., 0.]), Meet::Stretch(0.5, 1.0));
         assert_eq!(meet_exact([0., 0.], [2., 0.], [2., 0.], [3., 0.]), Meet::Point);
@@ -169,12 +192,20 @@ mod tests {
 
     #[test]
     fn near_cases() {
-        // a parallel segment 0.1 away over half its length
-        let iv = near_interval([0., 0.], [2., 0.], [1., 0.1], [3., 0.1], 0.15).unwrap();
-        // points of a within 0.15 of b: t from (1 - sqrt(0.15^2 - 0.1^2)) / 2 to 1
-        let expected = (1.0 - (0.15f64 * 0.15 - 0.01).sqrt()) / 2.0;
-        assert!((iv.0 - expected).abs() < 1e-12 && iv.1 == 1.0, "{iv:?}");
-        assert!(near_interval([0., 0.], [2., 0.], [1., 0.2], [3., 0.2], 0.15).is_none());
+        // a parallel segment 0.1 away over half its length: the part of a
+        // alongside it is t in [0.5, 1] (by hand)
+        let iv = coincident_interval([0., 0.], [2., 0.], [1., 0.1], [3., 0.1], 0.15).unwrap();
+        assert!((iv.0 - 0.5).abs() < 1e-12 && iv.1 == 1.0, "{iv:?}");
+        assert!(coincident_interval([0., 0.], [2., 0.], [1., 0.2], [3., 0.2], 0.15).is_none());
+        // perpendicular segments meeting at a corner: near, but nothing alongside
+        assert!(near([0., 0.], [1., 0.], [1., 0.], [1., 1.], 0.01));
+        assert!(coincident_interval([0., 0.], [1., 0.], [1., 0.], [1., 1.], 0.01).is_none());
+        // collinear segments end to end: near, alongside only at one point
+        assert_eq!(coincident_interval([0., 0.], [1., 0.], [1., 0.], [2., 0.], 0.01), Some((1.0, 1.0)));
+        // a gap of 0.5 (exact in binary) between two apart segments: near from 0.5 on
+        assert!(near([0., 0.], [1., 0.], [1.5, 0.], [2., 0.], 0.5));
+        assert!(!near([0., 0.], [1., 0.], [1.5, 0.], [2., 0.], 0.49));
+        assert_eq!(meet_exact([0., 0.], [2., 2.], [0., 2.], [2., 0.]), Meet::Cross);
         let mut v = vec![(0.5, 0.7), (0.0, 0.2), (0.1, 0.3)];
         assert!((union_length(&mut v, 10.0) - 5.0).abs() < 1e-12);
     }

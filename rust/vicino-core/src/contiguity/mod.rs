@@ -10,9 +10,10 @@
 //! tolerance is 0, so shared borders need not have matching vertices (a
 //! vertex in the middle of the other unit's edge is found); within the
 //! tolerance otherwise. The shared length is the length of the union of the
-//! stretches of one unit's boundary that lie on (or within the tolerance
-//! of) the other's; with a tolerance it is the mean of the two sides, so the
-//! result stays symmetric.
+//! stretches of one unit's boundary that lie on the other's (with a
+//! tolerance: that run alongside it, within the tolerance and within 10
+//! degrees of parallel, see [`contact`]); with a tolerance it is the mean of
+//! the two sides, so the result stays symmetric.
 //!
 //! Rules, exactly:
 //! * queen: the boundaries have a common point (with tolerance t: come
@@ -32,7 +33,7 @@ pub mod geometry;
 use crate::csr::Csr;
 use crate::error::{Error, Result};
 use crate::neighbors::metric::{haversine_km, Metric};
-use contact::{meet_exact, near_interval, union_length, Meet};
+use contact::{coincident_interval, meet_exact, near, union_length, Meet};
 pub use geometry::Polygons;
 use geometry::BBox;
 use rayon::prelude::*;
@@ -88,24 +89,49 @@ fn inside_box(inner: &BBox, outer: &BBox) -> bool {
 
 type Seg = ([f64; 2], [f64; 2]);
 
-/// Length of the part of the segments `from` lying on / near the segments `to`.
-fn covered(from: &[Seg], to: &[Seg], tol: f64, metric: Metric, contact: &mut bool, iv: &mut Vec<(f64, f64)>) -> f64 {
+/// What one boundary knows of another.
+#[derive(Default)]
+struct Touch {
+    contact: bool,
+    crossed: bool,
+}
+
+/// Length of the part of the segments `from` lying on / alongside the segments `to`.
+fn covered(from: &[Seg], to: &[Seg], tol: f64, metric: Metric, touch: &mut Touch, iv: &mut Vec<(f64, f64)>) -> f64 {
     let mut total = 0.0;
     for &(a0, a1) in from {
         iv.clear();
+        let ab = [a0[0].min(a1[0]) - tol, a0[1].min(a1[1]) - tol, a0[0].max(a1[0]) + tol, a0[1].max(a1[1]) + tol];
         for &(b0, b1) in to {
+            // most pairs of segments are apart: reject them by their boxes
+            if !seg_meets_box(b0, b1, &ab) {
+                continue;
+            }
+            if (a0 == b1 && a1 == b0) || (a0 == b0 && a1 == b1) {
+                // the same edge in both units (clean shared vertices)
+                touch.contact = true;
+                iv.push((0.0, 1.0));
+                continue;
+            }
             if tol == 0.0 {
                 match meet_exact(a0, a1, b0, b1) {
                     Meet::Apart => {}
-                    Meet::Point => *contact = true,
+                    Meet::Point => touch.contact = true,
+                    Meet::Cross => {
+                        touch.contact = true;
+                        touch.crossed = true;
+                    }
                     Meet::Stretch(l, h) => {
-                        *contact = true;
+                        touch.contact = true;
                         iv.push((l, h));
                     }
                 }
-            } else if let Some(r) = near_interval(a0, a1, b0, b1, tol) {
-                *contact = true;
-                iv.push(r);
+            } else if near(a0, a1, b0, b1, tol) {
+                touch.contact = true;
+                touch.crossed |= meet_exact(a0, a1, b0, b1) == Meet::Cross;
+                if let Some(r) = coincident_interval(a0, a1, b0, b1, tol) {
+                    iv.push(r);
+                }
             }
         }
         if !iv.is_empty() {
@@ -135,13 +161,15 @@ fn pair(p: &Polygons<'_>, i: usize, j: usize, boxes: &[Option<BBox>], tol: f64, 
     }
     s.sj.clear();
     s.sj.extend(p.segments_of(j).filter(|(a, b)| seg_meets_box(*a, *b, &wi)));
-    let mut contact = false;
-    let mut length = covered(&s.si, &s.sj, tol, metric, &mut contact, &mut s.iv);
-    if tol > 0.0 && contact {
-        let other = covered(&s.sj, &s.si, tol, metric, &mut contact, &mut s.iv);
+    let mut touch = Touch::default();
+    let mut length = covered(&s.si, &s.sj, tol, metric, &mut touch, &mut s.iv);
+    if tol > 0.0 && touch.contact {
+        let other = covered(&s.sj, &s.si, tol, metric, &mut touch, &mut s.iv);
         length = 0.5 * (length + other);
     }
-    let mut rook = if tol == 0.0 { length > 0.0 } else { length > tol };
+    let mut contact = touch.contact;
+    // crossing boundaries: the units overlap, neighbours under both rules
+    let mut rook = touch.crossed || if tol == 0.0 { length > 0.0 } else { length > tol };
     if !contact {
         // no common boundary: neighbours only if one lies inside the other
         let within = |inner: usize, outer: usize, bin: &BBox, bout: &BBox| {
@@ -193,7 +221,7 @@ pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric)
     let graph = symmetric_from_upper(&found);
     let perimeter = (0..n)
         .into_par_iter()
-        .map(|u| p.segments_of(u).map(|(a, b)| seg_length(lengths, a, b)).sum())
+        .map(|u| p.segments_of(u).fold(0.0, |acc, (a, b)| acc + seg_length(lengths, a, b)))
         .collect();
     Ok(Contiguity { graph, perimeter, empty })
 }

@@ -123,24 +123,27 @@ pub fn decode_polygons(bytes: &[u8], offsets: &[i64]) -> Result<PolygonBuffers> 
         return Err(Error::InvalidMatrix { reason: "WKB offsets must rise from 0 to the number of bytes".into() });
     }
     let n = offsets.len() - 1;
-    // each unit into its own small buffers (offsets local), then stitched
-    let parts: Vec<PolygonBuffers> = (0..n)
+    // blocks of units into their own buffers (offsets local), then stitched
+    const BLOCK: usize = 4096;
+    let blocks: Vec<PolygonBuffers> = (0..n.div_ceil(BLOCK))
         .into_par_iter()
-        .with_min_len(256)
-        .map(|u| {
-            let mut local = PolygonBuffers { rings: vec![0], polys: vec![0], ..Default::default() };
-            let mut r = Reader { buf: &bytes[offsets[u] as usize..offsets[u + 1] as usize], pos: 0, unit: u };
-            r.unit(&mut local)?;
+        .map(|blk| {
+            let mut local = PolygonBuffers { rings: vec![0], polys: vec![0], units: vec![0], ..Default::default() };
+            for u in blk * BLOCK..((blk + 1) * BLOCK).min(n) {
+                let mut r = Reader { buf: &bytes[offsets[u] as usize..offsets[u + 1] as usize], pos: 0, unit: u };
+                r.unit(&mut local)?;
+                local.units.push((local.polys.len() - 1) as i64);
+            }
             Ok(local)
         })
         .collect::<Result<_>>()?;
     let mut out = PolygonBuffers { rings: vec![0], polys: vec![0], units: vec![0], ..Default::default() };
-    for part in parts {
+    for part in blocks {
         let (c0, r0, p0) = ((out.coords.len() / 2) as i64, (out.rings.len() - 1) as i64, (out.polys.len() - 1) as i64);
         out.coords.extend_from_slice(&part.coords);
         out.rings.extend(part.rings[1..].iter().map(|&v| v + c0));
         out.polys.extend(part.polys[1..].iter().map(|&v| v + r0));
-        out.units.push(p0 + (part.polys.len() - 1) as i64);
+        out.units.extend(part.units[1..].iter().map(|&v| v + p0));
     }
     Ok(out)
 }

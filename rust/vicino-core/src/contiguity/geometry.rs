@@ -88,6 +88,33 @@ impl<'a> Polygons<'a> {
         })
     }
 
+    /// Push the segments of unit u that meet the box `bx` onto `out`
+    /// (explicit loops: this runs for every candidate pair).
+    pub fn segments_meeting(&self, u: usize, bx: &BBox, out: &mut Vec<([f64; 2], [f64; 2])>) {
+        let (p0, p1) = (self.units[u] as usize, self.units[u + 1] as usize);
+        let (r0, r1) = (self.polys[p0] as usize, self.polys[p1] as usize);
+        for r in r0..r1 {
+            let ring = &self.xy[self.rings[r] as usize..self.rings[r + 1] as usize];
+            let m = ring.len();
+            if m < 2 {
+                continue;
+            }
+            let closed = ring[0] == ring[m - 1];
+            let count = if closed { m - 1 } else { m };
+            for k in 0..count {
+                let (a, b) = (ring[k], ring[if k + 1 == m { 0 } else { k + 1 }]);
+                if a != b
+                    && a[0].max(b[0]) >= bx[0]
+                    && a[0].min(b[0]) <= bx[2]
+                    && a[1].max(b[1]) >= bx[1]
+                    && a[1].min(b[1]) <= bx[3]
+                {
+                    out.push((a, b));
+                }
+            }
+        }
+    }
+
     /// Whether unit u has no points.
     pub fn is_empty(&self, u: usize) -> bool {
         self.rings_of(u).all(|(_, r)| r.is_empty())

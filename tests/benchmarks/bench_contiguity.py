@@ -1,0 +1,176 @@
+"""Benchmarks of polygon contiguity against the general-purpose route.
+
+Run: python tests/benchmarks/bench_contiguity.py [--sizes 10000 100000 1000000]
+     [--reps 3] [--skip-rook-baseline-above 200000]
+
+Prints a table of wall times, ratios (general-purpose route / vicino) and
+peak memory. It never fails: it measures, it does not judge.
+
+Data: a Voronoi tessellation of n seeded uniform random points in the unit
+square (shapely.voronoi_polygons extended to the unit box, split with
+shapely.get_parts, clipped to the box with shapely.intersection) in a
+geopandas.GeoSeries. Building it is not timed; since it takes about 20 s at
+n = 10^6, each tessellation is cached once as WKB in a .npy file in the
+system temporary directory (never in the repository) and read back by
+every process. Random points almost surely put no four cells at one
+corner, so queen and rook find the same links here; the rook rows measure
+the cost of deciding it.
+
+Steps, each on the same tessellation for both routes:
+* queen: shapely.STRtree(geoms).query(geoms, predicate="intersects") and a
+  scipy.sparse.csr_array of the pairs without self pairs, vs
+  vicino.contiguity(gs, "queen").
+* rook: the same STRtree query, then shapely.relate_pattern(a, b,
+  "****1****") (boundaries share a stretch of positive length) on the
+  candidate pairs i < j, mirrored into a symmetric csr_array, vs
+  vicino.contiguity(gs, "rook"). The relate_pattern route takes minutes at
+  n = 10^6: above --skip-rook-baseline-above units it is not run and its
+  row prints "skipped".
+* queen core / rook core: vicino._core.contiguity(buffers, rule, 0.0,
+  "euclidean") alone, with buffers = vicino.geometry.as_polygons(gs)
+  computed beforehand; the ratio is against the same shapely route as the
+  end-to-end row.
+* conversion: vicino.geometry.as_polygons(gs) on its own (GeoSeries to
+  the flat buffers the core reads), the part of the end-to-end route that
+  the core-only rows leave out; it has no baseline.
+Times: all routes of a rule run alternately in one process, best of
+several runs (one run for n >= 10^6), so they see the same machine. Peak
+memory: the peak resident set of a fresh process that loads the
+tessellation and runs one route once; for the core rows the process loads
+only the converted buffers (saved next to the cache by the timing process)
+and runs the core once, so the conversion's own peak is not counted there.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import subprocess
+import sys
+import textwrap
+
+CHILD = textwrap.dedent(
+    r"""
+    import json, os, resource, sys, tempfile, time
+    import numpy as np, scipy.sparse as sp, shapely, geopandas as gpd
+    import vicino, vicino.geometry
+
+    mode, rule, n, reps, skip = sys.argv[1], sys.argv[2], int(sys.argv[3]), int(sys.argv[4]), sys.argv[5] == "1"
+    seed = 12345
+    cache = os.path.join(tempfile.gettempdir(), f"vicino_bench_voronoi_{n}_{seed}.npy")
+    cached_buffers = cache[:-4] + "_buffers.npz"
+    if mode == "mem2":  # the core alone: load the converted buffers written by the timing process
+        with np.load(cached_buffers) as z:
+            buffers = tuple(z[f"arr_{k}"] for k in range(len(z.files)))
+        base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        vicino._core.contiguity(buffers, rule, 0.0, "euclidean")
+        peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        print(json.dumps({"peak_mb": peak / 1024, "extra_mb": max(peak - base, 0) / 1024}))
+        sys.exit()
+    if os.path.exists(cache):
+        geoms = shapely.from_wkb(np.load(cache, allow_pickle=True))
+    else:
+        pts = np.random.default_rng(seed).random((n, 2))
+        box = shapely.box(0.0, 0.0, 1.0, 1.0)
+        geoms = shapely.intersection(
+            shapely.get_parts(shapely.voronoi_polygons(shapely.multipoints(pts), extend_to=box)), box)
+        tmp = f"{cache}.{os.getpid()}.npy"
+        np.save(tmp, shapely.to_wkb(geoms), allow_pickle=True)
+        os.replace(tmp, cache)
+    gs = gpd.GeoSeries(geoms)
+    m = len(geoms)
+
+    def csr(i, j):
+        a = sp.csr_array((np.ones(len(i)), (i, j)), shape=(m, m))
+        a.sort_indices()
+        return a
+
+    def candidates():
+        i, j = shapely.STRtree(geoms).query(geoms, predicate="intersects")
+        return i, j
+
+    def shapely_queen():
+        i, j = candidates()
+        keep = i != j
+        return csr(i[keep], j[keep])
+
+    def shapely_rook():
+        i, j = candidates()
+        keep = i < j
+        i, j = i[keep], j[keep]
+        hit = shapely.relate_pattern(geoms[i], geoms[j], "****1****")
+        i, j = i[hit], j[hit]
+        return csr(np.concatenate([i, j]), np.concatenate([j, i]))
+
+    buffers = None
+    if mode == "time":
+        buffers = vicino.geometry.as_polygons(gs)[0]
+        tmp = f"{cached_buffers}.{os.getpid()}.npz"
+        np.savez(tmp, *buffers)
+        os.replace(tmp, cached_buffers)
+    baseline = None if (rule == "rook" and skip) else (shapely_queen if rule == "queen" else shapely_rook)
+    routes = [
+        baseline,
+        lambda: vicino.contiguity(gs, rule),
+        lambda: vicino._core.contiguity(buffers, rule, 0.0, "euclidean"),
+        (lambda: vicino.geometry.as_polygons(gs)) if rule == "queen" else None,
+    ]
+
+    if mode == "time":
+        best = [None if f is None else float("inf") for f in routes]
+        for _ in range(reps):
+            for i, f in enumerate(routes):
+                if f is None:
+                    continue
+                t = time.perf_counter(); f(); best[i] = min(best[i], time.perf_counter() - t)
+        print(json.dumps(best))
+    else:
+        base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        routes[int(mode[-1])]()
+        peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        print(json.dumps({"peak_mb": peak / 1024, "extra_mb": max(peak - base, 0) / 1024}))
+    """
+)
+
+
+def child(mode: str, rule: str, n: int, reps: int, skip: bool):
+    out = subprocess.run([sys.executable, "-c", CHILD, mode, rule, str(n), str(reps), "1" if skip else "0"],
+                         capture_output=True, text=True, check=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def row(label: str, n: int, tb, tv: float, mb, mv: dict) -> str:
+    if tb is None:
+        b, r = f"{'skipped' if mb == 'skipped' else '-':>12}", f"{'-':>8}"
+        m = f"{'skipped' if mb == 'skipped' else '-':>9}"
+    else:
+        b, r, m = f"{tb:>12.4f}", f"{tb / tv:>7.2f}x", f"{mb['peak_mb']:>9.0f}"
+    return f"{label:<16}{n:>10,}{b}{tv:>11.4f}{r}{m}{mv['peak_mb']:>10.0f}"
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
+    ap.add_argument("--reps", type=int, default=3, help="runs per route (1 for n >= 10^6)")
+    ap.add_argument("--skip-rook-baseline-above", type=int, default=200_000, metavar="N",
+                    help="do not run the relate_pattern rook baseline above N units (it takes minutes at 10^6)")
+    args = ap.parse_args()
+    print(f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}", flush=True)
+    for n in args.sizes:
+        reps = 1 if n >= 1_000_000 else args.reps
+        for rule in ("queen", "rook"):
+            skip = rule == "rook" and n > args.skip_rook_baseline_above
+            tb, tv, tc, tconv = child("time", rule, n, reps, skip)
+            mb = "skipped" if skip else child("mem0", rule, n, 1, skip)
+            mv, mc = child("mem1", rule, n, 1, skip), child("mem2", rule, n, 1, skip)
+            print(row(rule, n, tb, tv, mb, mv), flush=True)
+            print(row(f"{rule} core", n, tb, tc, mb, mc), flush=True)
+            if rule == "queen":
+                print(row("conversion", n, None, tconv, None, child("mem3", rule, n, 1, skip)), flush=True)
+    print("ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
+          "that loads the inputs and runs that route once; core rows exclude the conversion (as_polygons): "
+          "their MB is a process that loads only the converted buffers")
+
+
+if __name__ == "__main__":
+    main()

@@ -163,8 +163,6 @@ fn half_offset_t_junction() {
 }
 
 #[test]
-            neighbours: the near stretch at a shared corner has length 2t per side, which is > t, so a perfect lattice \
-            gets queen counts 8/5/3 under rook"]
 fn rook_with_tiny_tolerance_keeps_lattice_counts() {
     let (b, cells) = lattice(3, 3, &[true; 9], 0.0, 0.0, 1.0);
     let c = contiguity(&b.polygons(), Rule::Rook, 1e-9, Metric::Euclidean).unwrap();
@@ -255,7 +253,6 @@ proptest! {
 }
 
 #[test]
-            rules, but rook gives no link (the crossing is a point contact of length 0)"]
 fn crossing_boundaries_are_rook_neighbours() {
     let mut b = Buffers::new();
     b.square(0.0, 0.0, 2.0);

@@ -8,9 +8,9 @@ use crate::error::{first_positions, Error, Result};
 use ndarray::{Array2, ArrayView2, Axis};
 use rayon::prelude::*;
 
-fn check_finite(values: impl Iterator<Item = f64>, n_rows: usize, per_row: usize) -> Result<()> {
-    let v: Vec<f64> = values.collect();
-    let (count, first) = first_positions(n_rows, |i| v[i * per_row..(i + 1) * per_row].iter().any(|x| !x.is_finite()));
+/// Rows holding a NaN or infinite value are an error naming the first few.
+fn check_finite(x: ArrayView2<'_, f64>) -> Result<()> {
+    let (count, first) = first_positions(x.nrows(), |i| x.row(i).iter().any(|v| !v.is_finite()));
     if count > 0 {
         return Err(Error::NonFiniteValues { count, first });
     }
@@ -89,7 +89,7 @@ pub fn lag_columns(w: CsrRef<'_>, x: ArrayView2<'_, f64>) -> Result<Array2<f64>>
     if rows != w.n() {
         return Err(Error::LengthMismatch { what: "values", expected: w.n(), got: rows });
     }
-    check_finite(x.iter().copied(), rows, cols)?;
+    check_finite(x)?;
     let mut out = Array2::<f64>::zeros((rows, cols));
     let fill = |i: usize, mut o: ndarray::ArrayViewMut1<'_, f64>| {
         let (c, v) = w.row(i);

@@ -5,7 +5,7 @@ use crate::convert::{csr_out, slice, CsrOut};
 use crate::errors::run;
 use numpy::{IntoPyArray, PyArray1, PyReadonlyArray1};
 use pyo3::prelude::*;
-use vicino_core::contiguity::{self as core, Polygons, Rule};
+use vicino_core::contiguity::{self as core, Rule};
 use vicino_core::io::wkb::decode_polygons;
 use vicino_core::neighbors::Metric;
 
@@ -27,8 +27,7 @@ pub fn contiguity<'py>(
     let (bytes, offsets) = (slice(&polygons.0)?, slice(&polygons.1)?);
     let out = run(py, || {
         let b = decode_polygons(bytes, offsets)?;
-        let polys = Polygons::new(&b.coords, &b.rings, &b.polys, &b.units)?;
-        core::contiguity(&polys, Rule::parse(rule)?, tolerance, Metric::parse(metric)?)
+        core::contiguity(&b.polygons()?, Rule::parse(rule)?, tolerance, Metric::parse(metric)?)
     })?;
     Ok((csr_out(py, out.graph), out.perimeter.into_pyarray(py), out.empty))
 }
@@ -46,8 +45,7 @@ pub fn cliff_ord<'py>(
     let (bytes, offsets) = (slice(&polygons.0)?, slice(&polygons.1)?);
     let (w, info) = run(py, || {
         let b = decode_polygons(bytes, offsets)?;
-        let polys = Polygons::new(&b.coords, &b.rings, &b.polys, &b.units)?;
-        core::cliff_ord(&polys, border_power, distance_power, tolerance, Metric::parse(metric)?)
+        core::cliff_ord(&b.polygons()?, border_power, distance_power, tolerance, Metric::parse(metric)?)
     })?;
     Ok((csr_out(py, w), info.perimeter.into_pyarray(py), info.empty))
 }

@@ -16,6 +16,13 @@ pub struct PolygonBuffers {
     pub units: Vec<i64>,
 }
 
+impl PolygonBuffers {
+    /// Borrow as checked [`Polygons`](crate::contiguity::Polygons).
+    pub fn polygons(&self) -> Result<crate::contiguity::Polygons<'_>> {
+        crate::contiguity::Polygons::new(&self.coords, &self.rings, &self.polys, &self.units)
+    }
+}
+
 struct Reader<'a> {
     buf: &'a [u8],
     pos: usize,

@@ -169,11 +169,15 @@ def _geometry_values(polygons) -> tuple[np.ndarray, pd.Index | None]:
 
 
 def as_polygons(polygons, *, ids=None):
-    """Polygons as Well-Known Binary buffers (all bytes, and each unit's
-    offsets into them), unit ids, and the mask of empty units.
+    """Polygons as flat buffers for the core, unit ids, and the mask of empty units.
 
     Accepts a GeoDataFrame, GeoSeries, pandas Series of shapely geometries,
     shapely array or list of Polygon / MultiPolygon (holes included).
+
+    The buffers are ``("rings", coordinates, ring offsets)`` when every unit
+    is a single polygon without holes (read with shapely's vectorized
+    coordinate export), else ``("wkb", bytes, offsets)``: Well-Known Binary
+    written by GEOS in C, decoded into flat buffers by the core in parallel.
     """
     try:
         import shapely
@@ -184,33 +188,39 @@ def as_polygons(polygons, *, ids=None):
     if n == 0:
         raise InvalidInputError("no polygons were given; pass at least two units")
     units = make_ids(ids, n, index)
-    missing = pd.isna(values)
-    if missing.any():
-        raise InvalidInputError(f"{int(missing.sum())} unit(s) have no geometry (None): ids {examples(units[missing])}")
     try:
-        kinds = shapely.get_type_id(values)
+        kinds = shapely.get_type_id(values)  # -1 for None
     except TypeError:
         # only on the error path: find which values are not geometries
-        not_geometry = ~np.array([isinstance(v, shapely.Geometry) for v in values.tolist()])
+        not_geometry = ~np.array([v is None or isinstance(v, shapely.Geometry) for v in values.tolist()])
         raise InvalidTypeError(
             f"{int(not_geometry.sum())} value(s) are not shapely geometries, ids {examples(units[not_geometry])}; "
             "read the file with a GIS reader or build shapely polygons first"
         ) from None
-    empty = shapely.is_empty(values)
-    wrong = ~np.isin(kinds, (3, 6)) & ~empty  # 3 Polygon, 6 MultiPolygon
+    missing = kinds == -1
+    if missing.any():
+        raise InvalidInputError(f"{int(missing.sum())} unit(s) have no geometry (None): ids {examples(units[missing])}")
+    sizes = shapely.get_num_coordinates(values)
+    empty = sizes == 0  # a geometry of any type without coordinates is empty
+    polygon = kinds == 3
+    wrong = ~(polygon | (kinds == 6)) & ~empty  # 3 Polygon, 6 MultiPolygon
     if wrong.any():
-        names = sorted(set(shapely.get_type_id(values[wrong]).tolist()))
+        names = sorted(set(kinds[wrong].tolist()))
         raise InvalidInputError(
             f"{int(wrong.sum())} geometries are not polygons (shapely type ids {names}), ids {examples(units[wrong])}; "
             "contiguity needs Polygon or MultiPolygon units"
         )
-    values = values.copy()
-    values[empty] = shapely.Polygon()
-    # Well-Known Binary, 2-D, written by GEOS in C; the core decodes it into
-    # flat coordinate and offset buffers in parallel
+    if (polygon | empty).all() and shapely.get_num_interior_rings(values).max() <= 0:
+        # one ring per unit: coordinates in unit order, one offset per unit
+        offsets = np.zeros(n + 1, dtype=np.int64)
+        np.cumsum(sizes, out=offsets[1:])
+        coords = shapely.get_coordinates(values).reshape(-1)
+        return ("rings", coords, offsets), units, empty
+    if (empty & ~polygon).any():
+        values = values.copy()
+        values[empty] = shapely.Polygon()
     wkb = shapely.to_wkb(values, output_dimension=2).tolist()
-    sizes = np.fromiter(map(len, wkb), dtype=np.int64, count=n)
+    lengths = np.fromiter(map(len, wkb), dtype=np.int64, count=n)
     offsets = np.zeros(n + 1, dtype=np.int64)
-    np.cumsum(sizes, out=offsets[1:])
-    buffers = (np.frombuffer(b"".join(wkb), dtype=np.uint8), offsets)
-    return buffers, units, empty
+    np.cumsum(lengths, out=offsets[1:])
+    return ("wkb", np.frombuffer(b"".join(wkb), dtype=np.uint8), offsets), units, empty

@@ -61,7 +61,8 @@ CHILD = textwrap.dedent(
     cached_buffers = cache[:-4] + "_buffers.npz"
     if mode == "mem2":  # the core alone: load the converted buffers written by the timing process
         with np.load(cached_buffers) as z:
-            buffers = tuple(z[f"arr_{k}"] for k in range(len(z.files)))
+            # the first entry is the buffer kind ("rings" or "wkb"), saved as a 0-d text array
+            buffers = (str(z["arr_0"]),) + tuple(z[f"arr_{k}"] for k in range(1, len(z.files)))
         base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
         vicino._core.contiguity(buffers, rule, 0.0, "euclidean")
         peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss

@@ -1,17 +1,51 @@
-//! Contiguity and Cliff-Ord weights of polygons given as Well-Known Binary
-//! (decoded into flat buffers in the core, without the GIL).
+//! Contiguity and Cliff-Ord weights of polygons, read without the GIL from
+//! either Well-Known Binary or, for units of one ring each, flat coordinates.
 
 use crate::convert::{csr_out, slice, CsrOut};
 use crate::errors::run;
 use numpy::{IntoPyArray, PyArray1, PyReadonlyArray1};
 use pyo3::prelude::*;
-use vicino_core::contiguity::{self as core, Rule};
+use vicino_core::contiguity::{self as core, Polygons, Rule};
+use vicino_core::error::Result;
 use vicino_core::io::wkb::decode_polygons;
 use vicino_core::neighbors::Metric;
 
-/// Units as Well-Known Binary: all bytes in one array, and the offsets of
-/// each unit's bytes.
-type Wkb<'py> = (PyReadonlyArray1<'py, u8>, PyReadonlyArray1<'py, i64>);
+/// How Python hands over the units.
+#[derive(FromPyObject)]
+pub enum PolygonInput<'py> {
+    /// ("wkb", all bytes, offsets of each unit's bytes)
+    Wkb(String, PyReadonlyArray1<'py, u8>, PyReadonlyArray1<'py, i64>),
+    /// ("rings", interleaved x y, offsets of each unit's one ring): units
+    /// that are single polygons without holes (an empty ring is an empty unit)
+    Rings(String, PyReadonlyArray1<'py, f64>, PyReadonlyArray1<'py, i64>),
+}
+
+enum Raw<'a> {
+    Wkb(&'a [u8], &'a [i64]),
+    Rings(&'a [f64], &'a [i64]),
+}
+
+impl<'py> PolygonInput<'py> {
+    fn raw(&self) -> PyResult<Raw<'_>> {
+        let bad = |tag: &str| pyo3::exceptions::PyValueError::new_err(format!("unknown polygon buffer kind {tag:?}"));
+        match self {
+            PolygonInput::Wkb(tag, b, o) if tag == "wkb" => Ok(Raw::Wkb(slice(b)?, slice(o)?)),
+            PolygonInput::Rings(tag, c, r) if tag == "rings" => Ok(Raw::Rings(slice(c)?, slice(r)?)),
+            PolygonInput::Wkb(tag, ..) | PolygonInput::Rings(tag, ..) => Err(bad(tag)),
+        }
+    }
+}
+
+/// Run `f` on the checked polygons (decoding WKB first where needed).
+fn with_polygons<T>(raw: Raw<'_>, f: impl FnOnce(&Polygons<'_>) -> Result<T>) -> Result<T> {
+    match raw {
+        Raw::Wkb(bytes, offsets) => f(&decode_polygons(bytes, offsets)?.polygons()?),
+        Raw::Rings(coords, rings) => {
+            let one_each: Vec<i64> = (0..rings.len() as i64).collect();
+            f(&Polygons::new(coords, rings, &one_each, &one_each)?)
+        }
+    }
+}
 
 type ContiguityOut<'py> = (CsrOut<'py>, Bound<'py, PyArray1<f64>>, Vec<usize>);
 
@@ -19,15 +53,14 @@ type ContiguityOut<'py> = (CsrOut<'py>, Bound<'py, PyArray1<f64>>, Vec<usize>);
 #[pyfunction]
 pub fn contiguity<'py>(
     py: Python<'py>,
-    polygons: Wkb<'py>,
+    polygons: PolygonInput<'py>,
     rule: &str,
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let (bytes, offsets) = (slice(&polygons.0)?, slice(&polygons.1)?);
+    let raw = polygons.raw()?;
     let out = run(py, || {
-        let b = decode_polygons(bytes, offsets)?;
-        core::contiguity(&b.polygons()?, Rule::parse(rule)?, tolerance, Metric::parse(metric)?)
+        with_polygons(raw, |p| core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?))
     })?;
     Ok((csr_out(py, out.graph), out.perimeter.into_pyarray(py), out.empty))
 }
@@ -36,16 +69,15 @@ pub fn contiguity<'py>(
 #[pyfunction]
 pub fn cliff_ord<'py>(
     py: Python<'py>,
-    polygons: Wkb<'py>,
+    polygons: PolygonInput<'py>,
     border_power: f64,
     distance_power: f64,
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let (bytes, offsets) = (slice(&polygons.0)?, slice(&polygons.1)?);
+    let raw = polygons.raw()?;
     let (w, info) = run(py, || {
-        let b = decode_polygons(bytes, offsets)?;
-        core::cliff_ord(&b.polygons()?, border_power, distance_power, tolerance, Metric::parse(metric)?)
+        with_polygons(raw, |p| core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?))
     })?;
     Ok((csr_out(py, w), info.perimeter.into_pyarray(py), info.empty))
 }

@@ -1,10 +1,13 @@
 """vicino: spatial weights matrices, spatial lags and spatial autocorrelation.
 
 Build weights from locations (:func:`k_nearest`, :func:`within_distance`)
-or from a matrix (:func:`from_matrix`), standardize them, compute lags with
+from polygons (:func:`contiguity`, :func:`cliff_ord`) or from a matrix
+(:func:`from_matrix`); check them with :meth:`Weights.audit`, repair and
+combine them, standardize them, compute lags with
 :meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`.
 """
 
+from .audit import Audit, Components, Finding
 from .build import EARTH_RADIUS_KM, cliff_ord, contiguity, from_matrix, k_nearest, within_distance
 from .errors import (
     ConvergenceError,
@@ -28,8 +31,11 @@ __version__ = "0.1.0"
 __all__ = [
     "EARTH_RADIUS_KM",
     "AnalyticInference",
+    "Audit",
+    "Components",
     "ConvergenceError",
     "DuplicateLocationWarning",
+    "Finding",
     "IdError",
     "InternalError",
     "InvalidInputError",

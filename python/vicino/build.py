@@ -10,7 +10,13 @@ import scipy.sparse as sp
 
 from . import _core
 from ._util import choice, make_ids, real_number, whole_number
-from .errors import DuplicateLocationWarning, InvalidMatrixError, InvalidParameterError, InvalidTypeError
+from .errors import (
+    DuplicateLocationWarning,
+    InvalidMatrixError,
+    InvalidParameterError,
+    InvalidParameterTypeError,
+    InvalidTypeError,
+)
 from .geometry import as_points, as_polygons
 from .weights import Step, Weights, call
 
@@ -82,14 +88,19 @@ def within_distance(points, radius: float, *, metric: str = "euclidean", ids=Non
     return _from_search(result, units, Step("within_distance", {"radius": radius, "metric": metric}))
 
 
-def from_matrix(matrix, *, ids=None) -> Weights:
+def from_matrix(matrix, *, ids=None, network: bool = False) -> Weights:
     """Weights from a square SciPy sparse matrix or a dense array-like.
 
-    Entries must be finite and non-negative. Explicit zeros are dropped
+    Set ``network=True`` when the matrix encodes a non-spatial network
+    (trade or migration flows, commuting, social contacts): it is recorded in
+    the recipe and :meth:`Weights.audit` then cautions that the network must
+    be exogenous to the outcome. Entries must be finite and non-negative. Explicit zeros are dropped
     (a zero weight is no link) and duplicate entries of sparse input are
     summed. The input is copied; later changes to it do not affect the
     weights.
     """
+    if not isinstance(network, (bool, np.bool_)):
+        raise InvalidParameterTypeError(f"network must be True or False, got {network!r}")
     index = getattr(matrix, "index", None) if isinstance(matrix, pd.DataFrame) else None
     if sp.issparse(matrix):
         m = sp.csr_array(matrix, copy=True)
@@ -121,7 +132,8 @@ def from_matrix(matrix, *, ids=None) -> Weights:
     indptr = m.indptr.astype(np.int64)
     indices = m.indices.astype(np.int64)
     call(_core.validate, n, indptr, indices, m.data, ids=units)
-    return Weights(indptr, indices, m.data, units, (Step("from_matrix", {"n": n}),))
+    params = {"n": n, "network": True} if network else {"n": n}
+    return Weights(indptr, indices, m.data, units, (Step("from_matrix", params),))
 
 
 def _warn_empty(empty: np.ndarray, ids: pd.Index) -> None:

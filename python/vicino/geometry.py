@@ -224,3 +224,52 @@ def as_polygons(polygons, *, ids=None):
     offsets = np.zeros(n + 1, dtype=np.int64)
     np.cumsum(lengths, out=offsets[1:])
     return ("wkb", np.frombuffer(b"".join(wkb), dtype=np.uint8), offsets), units, empty
+
+
+def _holds_polygons(values) -> bool:
+    """Whether ``values`` (pandas or array-like) holds shapely polygons, judged by the first geometry."""
+    if isinstance(values, pd.DataFrame):
+        if "geometry" not in values.columns and not hasattr(values, "geometry"):
+            return False
+        values = values.geometry if hasattr(values, "geometry") else values["geometry"]
+    if isinstance(values, pd.Series):
+        values = values.to_numpy()
+    if isinstance(values, (list, tuple)):
+        arr = np.empty(len(values), dtype=object)
+        arr[:] = list(values)
+        values = arr
+    if not (isinstance(values, np.ndarray) and _is_geometry_array(values)):
+        return False
+    import shapely
+
+    kinds = shapely.get_type_id(values)
+    return bool(np.isin(kinds, (3, 6)).any())
+
+
+def unit_locations(locations, ids: pd.Index):
+    """One location per unit, aligned with ``ids``: an (n, 2) float64 array
+    (rows of NaN for empty polygons) and the polygons' object array (None
+    for point input).
+
+    Points as :func:`as_points` accepts them; polygons as :func:`as_polygons`
+    accepts them, located at their area-weighted centroids (computed in the
+    core). A pandas input's index must equal ``ids``.
+    """
+    from .weights import check_index
+
+    if _holds_polygons(locations):
+        from . import _core
+
+        buffers, units, _ = as_polygons(locations, ids=None)
+        geoms = _geometry_values(locations)[0]
+        xy = _core.centroids(buffers).reshape(-1, 2)
+    else:
+        xy, units = as_points(locations)
+        geoms = None
+    if len(units) != len(ids):
+        raise InvalidInputError(
+            f"there are {len(units)} locations but the weights have {len(ids)} units; give one location per unit"
+        )
+    if isinstance(locations, (pd.DataFrame, pd.Series)):
+        check_index(units, ids, what="locations")
+    return xy, geoms

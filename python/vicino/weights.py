@@ -4,6 +4,7 @@ and a record of how it was made."""
 from __future__ import annotations
 
 import html
+import warnings
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any, Mapping
@@ -13,8 +14,15 @@ import pandas as pd
 import scipy.sparse as sp
 
 from . import _core
-from ._util import choice, examples, name_positions
-from .errors import IdError, InvalidValuesError, InvalidTypeError, InvalidParameterError, VicinoError
+from ._util import choice, examples, name_positions, real_number, whole_number
+from .errors import (
+    IdError,
+    InvalidParameterError,
+    InvalidParameterTypeError,
+    InvalidTypeError,
+    InvalidValuesError,
+    VicinoError,
+)
 
 STANDARDIZATIONS = ("row", "binary", "max_entry", "max_eigenvalue", "global", "variance_stabilizing", "none")
 DENSE_LIMIT = 5_000  # units above which to_dense() needs force=True
@@ -64,7 +72,8 @@ class Weights:
 
     __slots__ = ("_indptr", "_indices", "_data", "_ids", "_recipe", "_links", "_duplicates", "_units")
 
-    def __init__(self, indptr, indices, data, ids: pd.Index, recipe=(), *, links=None, units=None, duplicates: int = 0):
+    def __init__(self, indptr, indices, data, ids: pd.Index, recipe=(), *, links=None, units=None,
+                 duplicates: int | None = 0):
         put = object.__setattr__
         put(self, "_indptr", _frozen(indptr, np.int64))
         put(self, "_indices", _frozen(indices, np.int64))
@@ -75,7 +84,8 @@ class Weights:
         put(self, "_links", MappingProxyType({k: _frozen(v, np.float64) for k, v in (links or {}).items()}))
         # per-unit facts from the builder (perimeter), aligned with ids
         put(self, "_units", MappingProxyType({k: _frozen(v, np.float64) for k, v in (units or {}).items()}))
-        put(self, "_duplicates", int(duplicates))
+        # units sharing a location, as the builder found; None once unknown (after dropping units)
+        put(self, "_duplicates", None if duplicates is None else int(duplicates))
         if len(self._indptr) != len(ids) + 1 or len(self._indices) != len(self._data):
             raise VicinoError("inconsistent buffers for Weights; build weights with the vicino builders")
 
@@ -124,8 +134,9 @@ class Weights:
         return (self.nnz - self.self_links) / (self.n * (self.n - 1)) if self.n > 1 else 0.0
 
     @property
-    def duplicate_locations(self) -> int:
-        """How many units share their location with another (as found by the builder)."""
+    def duplicate_locations(self) -> int | None:
+        """How many units share their location with another (as found by the builder; None
+        when unknown, after units were dropped)."""
         return self._duplicates
 
     @property
@@ -261,6 +272,216 @@ class Weights:
             )
         return np.ascontiguousarray(arr), wrap
 
+    # ---- health ------------------------------------------------------
+    def audit(self) -> "Audit":
+        """A health report: neighbour counts, islands, components, symmetry, zero
+        columns, self-links, density, uneven counts, duplicate locations, and
+        the exogeneity caution for weights from a network. Each finding has a
+        level (problem, warning, note, ok) and says what to do."""
+        from .audit import Audit
+
+        return Audit(self, call(_core.health, self._csr(), ids=self._ids))
+
+    def plot_counts(self, ax=None):
+        """Bar chart of neighbour counts (islands highlighted); returns the matplotlib Axes."""
+        from .plots import plot_counts
+
+        return plot_counts(self, ax=ax)
+
+    def plot_links(self, locations, ax=None):
+        """Links drawn between unit centres over the polygons or points, islands and
+        smaller components marked; returns the matplotlib Axes."""
+        from .plots import plot_links
+
+        return plot_links(self, locations, ax=ax)
+
+    # ---- algebra -------------------------------------------------------
+    def _rebuild(self, csr, step: Step, *, source=None, ids=None, keep=None, duplicates="same") -> "Weights":
+        """New weights from core buffers. ``source`` maps each new entry to the entry it came
+        from (-1: new), carrying per-link facts; without it they are dropped. ``keep``
+        (positions) selects the per-unit facts."""
+        indptr, indices, data = csr
+        links = None
+        if source is not None and self._links:
+            src = np.asarray(source)
+            links = {k: np.where(src >= 0, v[np.maximum(src, 0)], np.nan) if len(v) else np.full(len(src), np.nan)
+                     for k, v in self._links.items()}
+        units = self._units if keep is None else {k: v[keep] for k, v in self._units.items()}
+        dup = self._duplicates if duplicates == "same" else duplicates
+        return Weights(indptr, indices, data, self._ids if ids is None else ids, self._recipe + (step,),
+                       links=links, units=units, duplicates=dup)
+
+    def symmetrize(self, how: str = "union") -> "Weights":
+        """A symmetric copy, from w_ij and w_ji (a missing link weighs 0).
+
+        ``union``: max(w_ij, w_ji), a link in either direction makes a link
+        both ways. ``intersection``: min(w_ij, w_ji), only links present in
+        both directions remain. ``mean``: (w_ij + w_ji) / 2, so a one-way
+        binary link weighs 0.5 both ways. Per-link facts (distance,
+        border length) are not carried over.
+        """
+        choice(how, "symmetrize rule", ("union", "intersection", "mean"))
+        out = call(_core.symmetrize, self._csr(), how, ids=self._ids)
+        return self._rebuild(out, Step("symmetrize", {"how": how}))
+
+    def order(self, k: int, *, cumulative: bool = False) -> "Weights":
+        """Binary weights of k-step neighbours: units exactly ``k`` links away
+        (shortest path of k links along the links' direction), or 1 to ``k``
+        links away when ``cumulative``. A unit is never its own k-step
+        neighbour. ``order(1)`` is the binary form of the weights (less any
+        self-links)."""
+        k = whole_number(k, "k", minimum=1)
+        if not isinstance(cumulative, (bool, np.bool_)):
+            raise InvalidParameterTypeError(f"cumulative must be True or False, got {cumulative!r}")
+        out = call(_core.order, self._csr(), k, bool(cumulative), ids=self._ids)
+        return self._rebuild(out, Step("order", {"k": k, "cumulative": bool(cumulative)}))
+
+    def _combine(self, other, op: str, symbol: str) -> "Weights":
+        if not isinstance(other, Weights):
+            return NotImplemented
+        if not self._ids.equals(other._ids):
+            raise IdError(
+                f"weights combined with {symbol} must have the same ids in the same order "
+                f"({self.n} and {other.n} units here); use other.align(weights.ids) first"
+            )
+        out = call(_core.combine, self._csr(), other._csr(), op, ids=self._ids)
+        step = Step(op, {"other": " -> ".join(str(s) for s in other._recipe) or "(given matrix)"})
+        return self._rebuild(out, step)
+
+    def __or__(self, other):
+        """Union of links (binary): linked in either."""
+        return self._combine(other, "union", "|")
+
+    def __and__(self, other):
+        """Intersection of links (binary): linked in both."""
+        return self._combine(other, "intersection", "&")
+
+    def __sub__(self, other):
+        """Difference of links (binary): linked in the first and not in the second."""
+        return self._combine(other, "difference", "-")
+
+    def _positions(self, ids, what: str) -> np.ndarray:
+        """Positions of the given ids, in the given order; unknown or repeated ids are an error."""
+        if isinstance(ids, (str, bytes)) or np.ndim(ids) != 1:
+            raise IdError(f"{what} must be a one-dimensional sequence of ids")
+        wanted = ids if isinstance(ids, pd.Index) else pd.Index(list(ids))
+        pos = self._ids.get_indexer(wanted)
+        unknown = wanted[pos < 0]
+        if len(unknown):
+            raise IdError(f"{len(unknown)} id(s) in {what} are not among the weights' ids: {examples(unknown)}")
+        if not wanted.is_unique:
+            dup = wanted[wanted.duplicated()].unique()
+            raise IdError(f"{what} names {len(dup)} id(s) more than once: {examples(dup)}; name each unit once")
+        return pos.astype(np.int64)
+
+    def _select(self, keep: np.ndarray, step: Step) -> "Weights":
+        scaled = self._scaled_by()
+        if scaled and len(keep) < self.n:
+            warnings.warn(
+                f"these weights were standardized ({scaled}); after removing units their rows no longer are: "
+                "standardize again", UserWarning, stacklevel=3,
+            )
+        out, source = call(_core.select, self._csr(), keep, ids=self._ids)
+        dup = "same" if len(keep) == self.n else None
+        return self._rebuild(out, step, source=source, ids=self._ids.take(keep), keep=keep, duplicates=dup)
+
+    def subset(self, ids) -> "Weights":
+        """The weights among the given units only, in the given order; links to other units are dropped
+        (units may become islands: audit() tells)."""
+        keep = self._positions(ids, "subset")
+        return self._select(keep, Step("subset", {"units": len(keep)}))
+
+    def drop(self, ids) -> "Weights":
+        """The weights without the given units (and their links); the others keep their order."""
+        gone = self._positions(ids, "drop")
+        keep = np.setdiff1d(np.arange(self.n, dtype=np.int64), gone)
+        return self._select(keep, Step("drop", {"units": len(gone)}))
+
+    def drop_islands(self) -> "Weights":
+        """The weights without their islands (units without neighbours)."""
+        keep = np.flatnonzero(np.diff(self._indptr) > 0).astype(np.int64)
+        return self._select(keep, Step("drop_islands", {"units": self.n - len(keep)}))
+
+    def align(self, index) -> "Weights":
+        """The same weights with units reordered to match ``index`` (a DataFrame's
+        index, or any sequence of ids). It must hold exactly the weights' ids:
+        missing or extra ids are an error that lists examples."""
+        if isinstance(index, (pd.DataFrame, pd.Series)):
+            index = index.index
+        if isinstance(index, (str, bytes)) or np.ndim(index) != 1:
+            raise IdError("align needs an index or a one-dimensional sequence of ids")
+        target = index if isinstance(index, pd.Index) else pd.Index(list(index))
+        if not target.is_unique:
+            dup = target[target.duplicated()].unique()
+            raise IdError(f"the index to align to repeats {len(dup)} id(s): {examples(dup)}; ids must be unique")
+        missing = self._ids.difference(target, sort=False)
+        extra = target.difference(self._ids, sort=False)
+        if len(missing) or len(extra):
+            parts = []
+            if len(missing):
+                parts.append(f"{len(missing)} id(s) of the weights are not in the index: {examples(missing)}")
+            if len(extra):
+                parts.append(f"{len(extra)} id(s) of the index are not in the weights: {examples(extra)}")
+            raise IdError("cannot align: " + "; ".join(parts) + ". Use subset(ids) or drop(ids) to match the data first")
+        if target.equals(self._ids):
+            return self
+        keep = self._ids.get_indexer(target).astype(np.int64)
+        return self._select(keep, Step("align", {"units": len(keep)}))
+
+    # ---- repair ----------------------------------------------------------
+    def _scaled_by(self) -> str | None:
+        """The standardization in force, if it changed the weights' scale (not binary or none)."""
+        for step in reversed(self._recipe):
+            if step.action == "standardize":
+                method = step.params.get("method")
+                return None if method in ("binary", "none") else method
+            if step.action in ("order", "union", "intersection", "difference"):
+                return None  # binary from here on
+        return None
+
+    def _repair(self, fn, locations, metric: str, weight, step_name: str, params: dict) -> "Weights":
+        from .geometry import unit_locations
+
+        choice(metric, "metric", ("euclidean", "great_circle"))
+        weight = real_number(weight, "weight")
+        if not (np.isfinite(weight) and weight > 0):
+            raise InvalidParameterError(f"weight must be a finite number > 0, got {weight}")
+        scaled = self._scaled_by()
+        if scaled:
+            raise InvalidParameterError(
+                f"these weights were standardized ({scaled}); repair the links first and standardize afterwards, "
+                "so that the new links are scaled like the others"
+            )
+        xy, _ = unit_locations(locations, self._ids)
+        both = call(_core.health, self._csr(), ids=self._ids)["max_asymmetry"] is None
+        out, source, added = call(fn, self._csr(), np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
+                                  metric, *params.values(), both, weight, ids=self._ids)
+        step = Step(step_name, {**params, "metric": metric, "weight": weight, "links_added": len(added)})
+        return self._rebuild(out, step, source=source)
+
+    def connect_islands(self, locations, k: int = 1, *, metric: str = "euclidean", weight: float = 1.0) -> "Weights":
+        """Link each island to its ``k`` nearest units by location.
+
+        ``locations``: the units' points (as :func:`vicino.k_nearest` takes
+        them) or polygons (located at their area-weighted centroids), in the
+        order of ``ids`` (a pandas input's index must equal ``ids``). New
+        links weigh ``weight``; for symmetric weights each new link is added
+        both ways, so the result stays symmetric. Ties go to the unit that
+        comes first. Repair before standardizing. The step is recorded in
+        ``recipe`` with the number of links added.
+        """
+        k = whole_number(k, "k", minimum=1)
+        return self._repair(_core.connect_islands, locations, metric, weight, "connect_islands", {"k": k})
+
+    def connect_components(self, locations, *, metric: str = "euclidean", weight: float = 1.0) -> "Weights":
+        """Link each smaller connected component to the largest, through the
+        closest pair of units (one in each), so that the map is in one piece.
+
+        Locations, weights and symmetry as in :meth:`connect_islands`;
+        islands are components of one unit and are linked too.
+        """
+        return self._repair(_core.connect_components, locations, metric, weight, "connect_components", {})
+
     # ---- display -----------------------------------------------------
     def _summary(self) -> dict:
         counts = np.diff(self._indptr)
@@ -291,24 +512,24 @@ class Weights:
         return f"<div><strong>vicino.Weights</strong><table>{rows}</table></div>"
 
 
-def check_index(index: pd.Index, ids: pd.Index) -> None:
+def check_index(index: pd.Index, ids: pd.Index, what: str = "values") -> None:
     """Require ``index`` to equal ``ids`` element by element, explaining any mismatch."""
     if index.equals(ids):
         return
     if len(index) != len(ids):
-        raise IdError(f"values have {len(index)} rows but the weights have {len(ids)} units")
+        raise IdError(f"the {what} have {len(index)} rows but the weights have {len(ids)} units")
     missing = ids.difference(index)
     extra = index.difference(ids)
     if len(missing) or len(extra):
         parts = []
         if len(missing):
-            parts.append(f"ids without values: {examples(missing)}")
+            parts.append(f"ids without {what}: {examples(missing)}")
         if len(extra):
-            parts.append(f"values whose index is not an id: {examples(extra)}")
-        raise IdError("the values' index does not match the weights' ids (" + "; ".join(parts) + ")")
+            parts.append(f"{what} whose index is not an id: {examples(extra)}")
+        raise IdError(f"the {what}' index does not match the weights' ids (" + "; ".join(parts) + ")")
     raise IdError(
-        "the values' index holds the same ids as the weights but in another order; "
-        "reorder them with values.reindex(weights.ids) (vicino never reorders silently)"
+        f"the {what}' index holds the same ids as the weights but in another order; "
+        f"reorder them with {what}.reindex(weights.ids) (vicino never reorders silently)"
     )
 
 

@@ -93,6 +93,21 @@ pub enum Error {
     NonFiniteWeight { row: usize, col: usize, value: f64 },
     #[error("weight at row {row}, column {col} is {value}; weights must be >= 0")]
     NegativeWeight { row: usize, col: usize, value: f64 },
+    #[error("order k = {k} is not possible: k must be at least 1 (k = 1 is the weights' own links)")]
+    InvalidOrder { k: usize },
+    #[error("unknown {what} {name:?}: use one of {options}")]
+    UnknownOption { what: &'static str, name: String, options: &'static str },
+    #[error("position {position} is out of range for {n} units")]
+    PositionOutOfRange { position: usize, n: usize },
+    #[error("the unit at position {position} is named twice; name each unit once")]
+    RepeatedPosition { position: usize },
+    #[error("the link from position {row} to position {col} exists already")]
+    LinkExists { row: usize, col: usize },
+    #[error(
+        "{count} {what} have no location (empty geometry), first at positions {first:?}; \
+         drop them first (drop_islands() or drop(ids)), or give them a location"
+    )]
+    Unlocated { what: &'static str, count: usize, first: Vec<usize> },
     #[error(
         "the largest eigenvalue did not converge in {iterations} iterations \
          (last estimate {estimate}); use \"max_entry\" or \"row\" instead, or report this case"

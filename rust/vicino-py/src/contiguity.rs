@@ -47,6 +47,16 @@ fn with_polygons<T>(raw: Raw<'_>, f: impl FnOnce(&Polygons<'_>) -> Result<T>) ->
     }
 }
 
+/// Read the units and run `f` on them without the GIL.
+pub fn with_polygon_input<T: Send>(
+    py: Python<'_>,
+    polygons: PolygonInput<'_>,
+    f: impl FnOnce(&Polygons<'_>) -> Result<T> + Send,
+) -> PyResult<T> {
+    let raw = polygons.raw()?;
+    run(py, || with_polygons(raw, f))
+}
+
 type ContiguityOut<'py> = (CsrOut<'py>, Bound<'py, PyArray1<f64>>, Vec<usize>);
 
 /// Contiguity: ((indptr, indices, shared lengths), perimeters, empty units).
@@ -58,10 +68,7 @@ pub fn contiguity<'py>(
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let raw = polygons.raw()?;
-    let out = run(py, || {
-        with_polygons(raw, |p| core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?))
-    })?;
+    let out = with_polygon_input(py, polygons, |p| core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?))?;
     Ok((csr_out(py, out.graph), out.perimeter.into_pyarray(py), out.empty))
 }
 
@@ -75,9 +82,7 @@ pub fn cliff_ord<'py>(
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let raw = polygons.raw()?;
-    let (w, info) = run(py, || {
-        with_polygons(raw, |p| core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?))
-    })?;
+    let (w, info) =
+        with_polygon_input(py, polygons, |p| core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?))?;
     Ok((csr_out(py, w), info.perimeter.into_pyarray(py), info.empty))
 }

@@ -16,7 +16,10 @@ fn class_name(e: &Error) -> &'static str {
         | LatitudeOutOfRange { .. } | LongitudeOutOfRange { .. } => "InvalidInputError",
         InvalidK { .. } | InvalidRadius { .. } | UnknownMetric { .. } | UnknownStandardization { .. }
         | UnknownAlternative { .. } | TooFewUnits { .. } | UnknownRule { .. } | InvalidTolerance { .. }
-        | CoincidentCentroids { .. } => "InvalidParameterError",
+        | CoincidentCentroids { .. } | InvalidOrder { .. } | UnknownOption { .. } => "InvalidParameterError",
+        PositionOutOfRange { .. } | RepeatedPosition { .. } => "IdError",
+        LinkExists { .. } => "InvalidMatrixError",
+        Unlocated { .. } => "InvalidInputError",
         Islands { .. } => "IslandError",
         NoWeight { .. } | InvalidMatrix { .. } | NotSquare { .. } | NonFiniteWeight { .. }
         | NegativeWeight { .. } | SelfLinks { .. } => "InvalidMatrixError",
@@ -35,7 +38,10 @@ pub fn to_py(py: Python<'_>, e: Error) -> PyErr {
         let (count, first) = match &e {
             Error::Islands { count, first }
             | Error::NonFiniteValues { count, first }
-            | Error::SelfLinks { count, first, .. } => (*count, first.clone()),
+            | Error::SelfLinks { count, first, .. }
+            | Error::Unlocated { count, first, .. } => (*count, first.clone()),
+            Error::PositionOutOfRange { position, .. } | Error::RepeatedPosition { position } => (1, vec![*position]),
+            Error::LinkExists { row, col } => (2, vec![*row, *col]),
             Error::NonFiniteCoordinate { index, .. }
             | Error::CoordinateTooLarge { index, .. }
             | Error::LatitudeOutOfRange { index, .. }

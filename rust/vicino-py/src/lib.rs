@@ -5,6 +5,7 @@
 mod contiguity;
 mod convert;
 mod errors;
+mod graph;
 mod neighbors;
 mod stats;
 mod weights;
@@ -24,5 +25,18 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(stats::moran, m)?)?;
     m.add_function(wrap_pyfunction!(contiguity::contiguity, m)?)?;
     m.add_function(wrap_pyfunction!(contiguity::cliff_ord, m)?)?;
+    for f in [
+        wrap_pyfunction!(graph::health, m)?,
+        wrap_pyfunction!(graph::components, m)?,
+        wrap_pyfunction!(graph::order, m)?,
+        wrap_pyfunction!(graph::combine, m)?,
+        wrap_pyfunction!(graph::symmetrize, m)?,
+        wrap_pyfunction!(graph::select, m)?,
+        wrap_pyfunction!(graph::connect_islands, m)?,
+        wrap_pyfunction!(graph::connect_components, m)?,
+        wrap_pyfunction!(graph::centroids, m)?,
+    ] {
+        m.add_function(f)?;
+    }
     Ok(())
 }

@@ -416,6 +416,13 @@ pub fn centroid(p: &Polygons<'_>, u: usize) -> Option<[f64; 2]> {
     MultiPolygon::new(polys).centroid().map(|c| [c.x(), c.y()])
 }
 
+/// Centroids of all units as interleaved x, y (NaN for a unit without
+/// one), in parallel.
+pub fn centroids(p: &Polygons<'_>) -> Vec<f64> {
+    use rayon::prelude::*;
+    (0..p.n()).into_par_iter().with_min_len(256).flat_map_iter(|u| centroid(p, u).unwrap_or([f64::NAN; 2])).collect()
+}
+
 /// Cliff-Ord weights (Cliff and Ord 1981): w_ij = (b_ij / p_i)^a / d_ij^b for
 /// rook neighbours, with b_ij the shared border length, p_i the perimeter
 /// of i (so b_ij / p_i is the share of i's boundary shared with j) and d_ij

@@ -53,11 +53,6 @@ impl<'a, const D: usize> Space<'a, D> {
         Self { tree, pts, xy, metric }
     }
 
-    #[inline]
-    fn dist(&self, i: usize, j: usize) -> f64 {
-        self.metric.distance(self.xy[i], self.xy[j])
-    }
-
     /// Squared tree radius that surely holds every point within `d` (public metric).
     fn tree_radius_sq(&self, d: f64) -> f64 {
         let r = match self.metric {
@@ -71,17 +66,18 @@ impl<'a, const D: usize> Space<'a, D> {
     /// All points within `d` of point i in the public metric, self excluded,
     /// as (distance, position), unsorted.
     fn within(&self, i: usize, d: f64, out: &mut Vec<(f64, usize)>) {
+        self.within_at(&self.pts[i], self.xy[i], i, d, out)
+    }
+
+    /// All points within `d` of a query point (`q` in tree coordinates,
+    /// `qxy` as given), the point at position `skip` excluded.
+    fn within_at(&self, q: &[f64; D], qxy: [f64; 2], skip: usize, d: f64, out: &mut Vec<(f64, usize)>) {
         out.clear();
-        let found = self
-            .tree
-            .query(&self.pts[i])
-            .within::<SquaredEuclidean<f64>>(self.tree_radius_sq(d))
-            .unsorted()
-            .execute();
+        let found = self.tree.query(q).within::<SquaredEuclidean<f64>>(self.tree_radius_sq(d)).unsorted().execute();
         for r in found {
             let j = r.item as usize;
-            if j != i {
-                let dj = self.dist(i, j);
+            if j != skip {
+                let dj = self.metric.distance(qxy, self.xy[j]);
                 if dj <= d {
                     out.push((dj, j));
                 }
@@ -102,23 +98,35 @@ impl<'a, const D: usize> Space<'a, D> {
 
     /// The k nearest of point i, self excluded, sorted by (distance, position).
     fn k_nearest(&self, i: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
+        self.k_nearest_at(&self.pts[i], self.xy[i], i, k, buf)
+    }
+
+    /// The k nearest of a query point, the point at position `skip` (if
+    /// any) excluded, sorted by (distance, position); fewer when the space
+    /// holds fewer.
+    fn k_nearest_at(&self, q: &[f64; D], qxy: [f64; 2], skip: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
         let n = self.xy.len();
+        let available = n - (skip < n) as usize;
         let m = (k + 2).min(n);
+        buf.clear();
+        if m == 0 || k == 0 {
+            return;
+        }
         let found = self
             .tree
-            .query(&self.pts[i])
-            .nearest_n::<SquaredEuclidean<f64>>(NonZeroUsize::new(m).expect("m >= 2"))
+            .query(q)
+            .nearest_n::<SquaredEuclidean<f64>>(NonZeroUsize::new(m).expect("m >= 1"))
             .execute();
-        buf.clear();
-        buf.extend(found.iter().filter(|r| r.item as usize != i).map(|r| {
+        buf.extend(found.iter().filter(|r| r.item as usize != skip).map(|r| {
             let j = r.item as usize;
-            (self.dist(i, j), j)
+            (self.metric.distance(qxy, self.xy[j]), j)
         }));
         sort_pairs(buf);
-        let settled = buf.len() == n - 1 || (buf.len() > k && self.clearly_less(buf[k - 1].0, buf[k].0));
+        let k = k.min(available);
+        let settled = buf.len() == available || (buf.len() > k && self.clearly_less(buf[k - 1].0, buf[k].0));
         if !settled {
             let dk = buf[k - 1].0;
-            self.within(i, dk, buf);
+            self.within_at(q, qxy, skip, dk, buf);
             sort_pairs(buf);
         }
         buf.truncate(k);
@@ -358,4 +366,42 @@ pub fn within_distance(xy: &[f64], radius: f64, metric: Metric) -> Result<Neighb
         rows[i] = row;
     }
     Ok(Neighbors { graph: assemble(rows), duplicate_units: layout.duplicate_units })
+}
+
+/// The `k` nearest of each query unit among the target units, itself
+/// excluded, sorted by (distance, position); positions refer to `xy`
+/// (interleaved, already checked and canonical). `targets` must be
+/// increasing. Ties go to the lower position, as in [`k_nearest`].
+pub fn nearest_among(xy: &[f64], metric: Metric, targets: &[usize], queries: &[usize], k: usize) -> Vec<Vec<(f64, usize)>> {
+    let all = as_pairs(xy);
+    debug_assert!(targets.windows(2).all(|p| p[0] < p[1]));
+    let sub: Vec<[f64; 2]> = targets.iter().map(|&t| all[t]).collect();
+    if sub.is_empty() {
+        return vec![Vec::new(); queries.len()];
+    }
+    fn run<const D: usize>(
+        space: &Space<'_, D>,
+        all: &[[f64; 2]],
+        targets: &[usize],
+        queries: &[usize],
+        k: usize,
+        to_tree: impl Fn([f64; 2]) -> [f64; D] + Sync,
+    ) -> Vec<Vec<(f64, usize)>> {
+        queries
+            .par_iter()
+            .with_min_len(64)
+            .map_init(Vec::new, |buf, &q| {
+                // the query's own slot among the targets, if it is one
+                let skip = targets.binary_search(&q).unwrap_or(usize::MAX);
+                space.k_nearest_at(&to_tree(all[q]), all[q], skip, k, buf);
+                buf.iter().map(|&(d, j)| (d, targets[j])).collect()
+            })
+            .collect()
+    }
+    match metric {
+        Metric::Euclidean => run(&Space::<2>::new(&sub, metric, |p| p), all, targets, queries, k, |p| p),
+        Metric::GreatCircle => {
+            run(&Space::<3>::new(&sub, metric, metric::unit_vector), all, targets, queries, k, metric::unit_vector)
+        }
+    }
 }

@@ -1,0 +1,482 @@
+//! The weights as a graph: connected components, the health facts of an
+//! audit, k-step neighbours, set operations on links, symmetrizing, and
+//! selecting units. Every function is O(n + nnz) or, for k-step
+//! neighbours, O(size of the output); rows are processed in parallel above
+//! a size threshold and the output never depends on the thread count.
+
+use crate::csr::{Csr, CsrRef, PARALLEL_MIN_NNZ};
+use crate::error::{Error, Result};
+use rayon::prelude::*;
+
+/// Connected components, links taken in either direction (weak components
+/// of a directed graph).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Components {
+    /// Component of each unit: 0 is the largest, ties broken by the lowest
+    /// position in the component.
+    pub labels: Vec<i64>,
+    /// Size of each component, largest first.
+    pub sizes: Vec<usize>,
+}
+
+impl Components {
+    pub fn count(&self) -> usize {
+        self.sizes.len()
+    }
+}
+
+fn find(parent: &mut [u32], mut x: u32) -> u32 {
+    while parent[x as usize] != x {
+        let up = parent[parent[x as usize] as usize];
+        parent[x as usize] = up; // path halving
+        x = up;
+    }
+    x
+}
+
+/// Connected components by union-find over the links (either direction).
+pub fn components(w: CsrRef<'_>) -> Components {
+    let n = w.n();
+    let mut parent: Vec<u32> = (0..n as u32).collect();
+    for i in 0..n {
+        for &j in w.row(i).0 {
+            let (a, b) = (find(&mut parent, i as u32), find(&mut parent, j as u32));
+            if a != b {
+                // the lower root wins, so roots are the lowest position of each component
+                let (lo, hi) = if a < b { (a, b) } else { (b, a) };
+                parent[hi as usize] = lo;
+            }
+        }
+    }
+    let roots: Vec<u32> = (0..n as u32).map(|x| find(&mut parent, x)).collect();
+    let mut size = vec![0usize; n];
+    for &r in &roots {
+        size[r as usize] += 1;
+    }
+    // components ordered by size (largest first), then by their lowest position
+    let mut order: Vec<usize> = (0..n).filter(|&r| roots[r] as usize == r).collect();
+    order.sort_by(|&a, &b| size[b].cmp(&size[a]).then(a.cmp(&b)));
+    let mut label_of_root = vec![-1i64; n];
+    for (label, &r) in order.iter().enumerate() {
+        label_of_root[r] = label as i64;
+    }
+    Components {
+        labels: roots.iter().map(|&r| label_of_root[r as usize]).collect(),
+        sizes: order.iter().map(|&r| size[r]).collect(),
+    }
+}
+
+/// The structural facts an audit reports.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Health {
+    pub components: Components,
+    /// How many units name each unit as a neighbour (column counts).
+    pub in_counts: Vec<usize>,
+    /// Units linked to themselves.
+    pub self_links: usize,
+    /// Links i -> j without a link j -> i.
+    pub one_way: usize,
+    /// The largest |w_ij - w_ji| (a missing link weighs 0), and where
+    /// (i < j); None when the matrix is symmetric.
+    pub max_asymmetry: Option<(f64, usize, usize)>,
+}
+
+/// Merge two sorted rows, calling `f(col, a, b)` for every column in either.
+#[inline]
+fn merge_rows(ac: &[i64], av: &[f64], bc: &[i64], bv: &[f64], mut f: impl FnMut(i64, Option<(usize, f64)>, Option<f64>)) {
+    let (mut p, mut q) = (0, 0);
+    while p < ac.len() || q < bc.len() {
+        let take_a = q == bc.len() || (p < ac.len() && ac[p] <= bc[q]);
+        let take_b = p == ac.len() || (q < bc.len() && bc[q] <= ac[p]);
+        let col = if take_a { ac[p] } else { bc[q] };
+        f(col, take_a.then(|| (p, av[p])), take_b.then(|| bv[q]));
+        p += take_a as usize;
+        q += take_b as usize;
+    }
+}
+
+/// Components, column counts, self-links and asymmetry in one go.
+pub fn health(w: CsrRef<'_>) -> Health {
+    let n = w.n();
+    let t = w.transpose();
+    let tv = t.view();
+    let in_counts = tv.counts();
+    // per row: (self-links, one-way links, largest asymmetry with its column)
+    let rows: Vec<(usize, usize, f64, usize)> = w.map_rows(|i, ac, av| {
+        let (bc, bv) = tv.row(i);
+        let (mut selfs, mut one_way, mut worst, mut at) = (0, 0, 0.0f64, usize::MAX);
+        merge_rows(ac, av, bc, bv, |col, a, b| {
+            if col as usize == i {
+                selfs += a.is_some() as usize;
+                return;
+            }
+            if b.is_none() {
+                one_way += 1;
+            }
+            let d = (a.map_or(0.0, |x| x.1) - b.unwrap_or(0.0)).abs();
+            if d > worst {
+                worst = d;
+                at = col as usize;
+            }
+        });
+        (selfs, one_way, worst, at)
+    });
+    let mut max_asymmetry: Option<(f64, usize, usize)> = None;
+    for (i, &(_, _, d, j)) in rows.iter().enumerate() {
+        // each pair is seen from both rows with the same value: keep the first (lowest i, then j)
+        if d > 0.0 && max_asymmetry.is_none_or(|m| d > m.0) {
+            max_asymmetry = Some((d, i.min(j), i.max(j)));
+        }
+    }
+    Health {
+        components: components(w),
+        in_counts,
+        self_links: rows.iter().map(|r| r.0).sum(),
+        one_way: rows.iter().map(|r| r.1).sum(),
+        max_asymmetry: max_asymmetry.filter(|_| n > 0),
+    }
+}
+
+/// Assemble canonical CSR from rows that are already sorted by column.
+fn from_sorted_rows(n: usize, rows: Vec<(Vec<i64>, Vec<f64>)>) -> Csr {
+    let mut indptr = Vec::with_capacity(n + 1);
+    indptr.push(0i64);
+    for (c, _) in &rows {
+        indptr.push(indptr[indptr.len() - 1] + c.len() as i64);
+    }
+    let nnz = indptr[n] as usize;
+    let mut indices = Vec::with_capacity(nnz);
+    let mut data = Vec::with_capacity(nnz);
+    for (c, v) in rows {
+        indices.extend_from_slice(&c);
+        data.extend_from_slice(&v);
+    }
+    Csr::from_canonical(n, indptr, indices, data)
+}
+
+/// Apply `f` to every row index, in parallel when the matrix is large.
+fn rows_of<T: Send>(n: usize, nnz: usize, f: impl Fn(usize) -> T + Sync) -> Vec<T> {
+    if nnz >= PARALLEL_MIN_NNZ {
+        (0..n).into_par_iter().with_min_len(64).map(&f).collect()
+    } else {
+        (0..n).map(f).collect()
+    }
+}
+
+/// Binary weights linking each unit to the units exactly `k` links away
+/// along the links (shortest path length k), or, when `cumulative`, 1 to
+/// `k` links away. A unit is never its own k-step neighbour.
+pub fn order(w: CsrRef<'_>, k: usize, cumulative: bool) -> Result<Csr> {
+    if k == 0 {
+        return Err(Error::InvalidOrder { k });
+    }
+    let n = w.n();
+    let rows = rows_of(n, w.nnz(), |i| {
+        // breadth-first by levels on sorted sets: `reached` holds every unit
+        // at distance < the current level (and i), `level` the current level
+        let mut reached: Vec<i64> = vec![i as i64];
+        let mut level: Vec<i64> = w.row(i).0.iter().copied().filter(|&j| j != i as i64).collect();
+        let mut out: Vec<i64> = Vec::new();
+        let mut next: Vec<i64> = Vec::new();
+        for step in 1..=k {
+            if cumulative || step == k {
+                out.extend_from_slice(&level);
+            }
+            if step == k || level.is_empty() {
+                break;
+            }
+            // the next level: neighbours of the level not reached before
+            reached.extend_from_slice(&level);
+            reached.sort_unstable(); // two disjoint sorted runs
+            next.clear();
+            for &u in &level {
+                next.extend(w.row(u as usize).0.iter().copied().filter(|j| reached.binary_search(j).is_err()));
+            }
+            next.sort_unstable();
+            next.dedup();
+            std::mem::swap(&mut level, &mut next);
+        }
+        if cumulative {
+            out.sort_unstable();
+        }
+        let ones = vec![1.0; out.len()];
+        (out, ones)
+    });
+    Ok(from_sorted_rows(n, rows))
+}
+
+/// How to combine the links of two matrices over the same units.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SetOp {
+    /// links in either
+    Union,
+    /// links in both
+    Intersection,
+    /// links in the first and not in the second
+    Difference,
+}
+
+impl SetOp {
+    pub fn parse(name: &str) -> Result<Self> {
+        match name {
+            "union" => Ok(Self::Union),
+            "intersection" => Ok(Self::Intersection),
+            "difference" => Ok(Self::Difference),
+            _ => Err(Error::UnknownOption { what: "set operation", name: name.into(), options: "\"union\", \"intersection\", \"difference\"" }),
+        }
+    }
+}
+
+/// Binary weights from the links of `a` and `b` combined by `op`.
+pub fn combine(a: CsrRef<'_>, b: CsrRef<'_>, op: SetOp) -> Result<Csr> {
+    if a.n() != b.n() {
+        return Err(Error::LengthMismatch { what: "the second matrix", expected: a.n(), got: b.n() });
+    }
+    let rows = rows_of(a.n(), a.nnz() + b.nnz(), |i| {
+        let ((ac, av), (bc, bv)) = (a.row(i), b.row(i));
+        let mut cols = Vec::new();
+        merge_rows(ac, av, bc, bv, |c, x, y| {
+            let keep = match op {
+                SetOp::Union => true,
+                SetOp::Intersection => x.is_some() && y.is_some(),
+                SetOp::Difference => x.is_some() && y.is_none(),
+            };
+            if keep {
+                cols.push(c);
+            }
+        });
+        let ones = vec![1.0; cols.len()];
+        (cols, ones)
+    });
+    Ok(from_sorted_rows(a.n(), rows))
+}
+
+/// How to make a matrix symmetric from w_ij and w_ji (a missing link weighs 0).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Symmetrize {
+    /// max(w_ij, w_ji): a link in either direction
+    Union,
+    /// min(w_ij, w_ji): only links in both directions
+    Intersection,
+    /// (w_ij + w_ji) / 2
+    Mean,
+}
+
+impl Symmetrize {
+    pub fn parse(name: &str) -> Result<Self> {
+        match name {
+            "union" => Ok(Self::Union),
+            "intersection" => Ok(Self::Intersection),
+            "mean" => Ok(Self::Mean),
+            _ => Err(Error::UnknownOption { what: "symmetrize rule", name: name.into(), options: "\"union\", \"intersection\", \"mean\"" }),
+        }
+    }
+}
+
+/// A symmetric matrix from `w` and its transpose.
+pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Csr {
+    let t = w.transpose();
+    let tv = t.view();
+    let rows = rows_of(w.n(), 2 * w.nnz(), |i| {
+        let ((ac, av), (bc, bv)) = (w.row(i), tv.row(i));
+        let (mut cols, mut vals) = (Vec::new(), Vec::new());
+        merge_rows(ac, av, bc, bv, |c, x, y| {
+            let (x, y) = (x.map(|x| x.1), y);
+            let v = match how {
+                Symmetrize::Union => x.unwrap_or(0.0).max(y.unwrap_or(0.0)),
+                Symmetrize::Intersection => match (x, y) {
+                    (Some(x), Some(y)) => x.min(y),
+                    _ => 0.0,
+                },
+                Symmetrize::Mean => 0.5 * x.unwrap_or(0.0) + 0.5 * y.unwrap_or(0.0),
+            };
+            if v > 0.0 {
+                cols.push(c);
+                vals.push(v);
+            }
+        });
+        (cols, vals)
+    });
+    from_sorted_rows(w.n(), rows)
+}
+
+/// The weights among the units `keep` (positions, in the new order; no
+/// repeats): rows and columns of other units are dropped. Also returns,
+/// for each entry of the result, the index of the entry of `w` it came from.
+pub fn select(w: CsrRef<'_>, keep: &[usize]) -> Result<(Csr, Vec<i64>)> {
+    let n = w.n();
+    let mut new_pos = vec![-1i64; n];
+    for (r, &u) in keep.iter().enumerate() {
+        if u >= n {
+            return Err(Error::PositionOutOfRange { position: u, n });
+        }
+        if new_pos[u] >= 0 {
+            return Err(Error::RepeatedPosition { position: u });
+        }
+        new_pos[u] = r as i64;
+    }
+    let base = w.indptr();
+    let rows = rows_of(keep.len(), w.nnz(), |r| {
+        let u = keep[r];
+        let (c, _) = w.row(u);
+        let mut kept: Vec<(i64, i64)> = c
+            .iter()
+            .enumerate()
+            .filter_map(|(e, &j)| (new_pos[j as usize] >= 0).then(|| (new_pos[j as usize], base[u] + e as i64)))
+            .collect();
+        kept.sort_unstable();
+        kept
+    });
+    let m = keep.len();
+    let mut indptr = Vec::with_capacity(m + 1);
+    indptr.push(0i64);
+    let mut indices = Vec::new();
+    let mut data = Vec::new();
+    let mut source = Vec::new();
+    let all = w.data();
+    for row in rows {
+        for (c, e) in row {
+            indices.push(c);
+            data.push(all[e as usize]);
+            source.push(e);
+        }
+        indptr.push(indices.len() as i64);
+    }
+    Ok((Csr::from_canonical(m, indptr, indices, data), source))
+}
+
+/// `w` with new links (i, j, weight) added. A new link that already
+/// exists, or is repeated, is an error. Also returns, for each entry of the
+/// result, the index of the entry of `w` it came from, or -1 for a new link.
+pub fn add_links(w: CsrRef<'_>, mut links: Vec<(usize, usize, f64)>) -> Result<(Csr, Vec<i64>)> {
+    let n = w.n();
+    for &(i, j, v) in &links {
+        if i >= n || j >= n {
+            return Err(Error::PositionOutOfRange { position: i.max(j), n });
+        }
+        if !(v.is_finite() && v > 0.0) {
+            return Err(Error::NonFiniteWeight { row: i, col: j, value: v });
+        }
+    }
+    links.sort_unstable_by_key(|&(i, j, _)| (i, j));
+    let mut indptr = Vec::with_capacity(n + 1);
+    indptr.push(0i64);
+    let mut indices = Vec::with_capacity(w.nnz() + links.len());
+    let mut data = Vec::with_capacity(w.nnz() + links.len());
+    let mut source = Vec::with_capacity(w.nnz() + links.len());
+    let mut next = 0;
+    for i in 0..n {
+        let start = next;
+        while next < links.len() && links[next].0 == i {
+            next += 1;
+        }
+        let add = &links[start..next];
+        let bc: Vec<i64> = add.iter().map(|l| l.1 as i64).collect();
+        let bv: Vec<f64> = add.iter().map(|l| l.2).collect();
+        let (ac, av) = w.row(i);
+        let mut clash = None;
+        merge_rows(ac, av, &bc, &bv, |c, x, y| match (x, y) {
+            (Some(_), Some(_)) => clash = Some(c as usize),
+            (Some((p, v)), None) => {
+                indices.push(c);
+                data.push(v);
+                source.push(w.indptr()[i] + p as i64);
+            }
+            (None, Some(v)) => {
+                indices.push(c);
+                data.push(v);
+                source.push(-1);
+            }
+            (None, None) => unreachable!(),
+        });
+        if let Some(j) = clash {
+            return Err(Error::LinkExists { row: i, col: j });
+        }
+        if add.windows(2).any(|p| p[0].1 == p[1].1) {
+            return Err(Error::LinkExists { row: i, col: add.windows(2).find(|p| p[0].1 == p[1].1).map_or(0, |p| p[0].1) });
+        }
+        indptr.push(indices.len() as i64);
+    }
+    Ok((Csr::from_canonical(n, indptr, indices, data), source))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn path(n: usize) -> Csr {
+        // the path 0 - 1 - ... - (n-1), both directions
+        Csr::from_rows(
+            (0..n)
+                .map(|i| {
+                    let mut r = Vec::new();
+                    if i > 0 {
+                        r.push((i - 1, 1.0));
+                    }
+                    if i + 1 < n {
+                        r.push((i + 1, 1.0));
+                    }
+                    r
+                })
+                .collect(),
+        )
+    }
+
+    #[test]
+    fn components_of_two_paths_and_an_island() {
+        // units 0-1-2, 3 alone, 4-5: by hand, sizes 3, 2, 1
+        let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(2, 1.0)], vec![], vec![], vec![(5, 1.0)], vec![]]);
+        let c = components(w.view());
+        assert_eq!(c.sizes, vec![3, 2, 1]);
+        assert_eq!(c.labels, vec![0, 0, 0, 2, 1, 1]);
+    }
+
+    #[test]
+    fn order_on_a_path() {
+        // on a path, unit i is exactly k steps from i - k and i + k (by hand)
+        let w = path(6);
+        let o2 = order(w.view(), 2, false).unwrap();
+        assert_eq!(o2.view().row(0).0, &[2]);
+        assert_eq!(o2.view().row(3).0, &[1, 5]);
+        let c2 = order(w.view(), 2, true).unwrap();
+        assert_eq!(c2.view().row(3).0, &[1, 2, 4, 5]);
+        assert_eq!(order(w.view(), 1, false).unwrap().view().indices(), w.view().indices());
+        assert!(order(w.view(), 0, false).is_err());
+    }
+
+    #[test]
+    fn set_operations_and_symmetrize() {
+        let a = Csr::from_rows(vec![vec![(1, 2.0)], vec![], vec![(0, 1.0), (1, 3.0)]]);
+        let b = Csr::from_rows(vec![vec![(1, 1.0), (2, 1.0)], vec![], vec![(1, 1.0)]]);
+        let u = combine(a.view(), b.view(), SetOp::Union).unwrap();
+        assert_eq!(u.view().indices(), &[1, 2, 0, 1]);
+        let x = combine(a.view(), b.view(), SetOp::Intersection).unwrap();
+        assert_eq!(x.view().indices(), &[1, 1]);
+        let d = combine(a.view(), b.view(), SetOp::Difference).unwrap();
+        assert_eq!(d.view().indices(), &[0]);
+        // W = [[0,2,0],[0,0,0],[1,3,0]]: by hand, mean gives [[0,1,.5],[1,0,1.5],[.5,1.5,0]]
+        let m = symmetrize(a.view(), Symmetrize::Mean);
+        assert_eq!(m.view().data(), &[1.0, 0.5, 1.0, 1.5, 0.5, 1.5]);
+        assert!(m.view().is_symmetric());
+        assert_eq!(symmetrize(a.view(), Symmetrize::Intersection).view().nnz(), 0);
+        let h = health(a.view());
+        assert_eq!(h.one_way, 3);
+        assert_eq!(h.max_asymmetry, Some((3.0, 1, 2)));
+        assert_eq!(h.in_counts, vec![1, 2, 0]);
+    }
+
+    #[test]
+    fn select_and_add() {
+        let w = path(4);
+        let (s, src) = select(w.view(), &[3, 2, 0]).unwrap();
+        // new order 3, 2, 0: 3 - 2 linked, 0 has lost its only neighbour
+        assert_eq!(s.view().indptr(), &[0, 1, 2, 2]);
+        assert_eq!(s.view().indices(), &[1, 0]);
+        assert_eq!(src, vec![5, 4]);
+        assert!(select(w.view(), &[1, 1]).is_err());
+        let (a, src) = add_links(s.view(), vec![(2, 0, 1.0), (0, 2, 1.0)]).unwrap();
+        assert_eq!(a.view().indices(), &[1, 2, 0, 0]);
+        assert_eq!(src, vec![0, -1, 1, -1]);
+        assert!(add_links(s.view(), vec![(0, 1, 1.0)]).is_err());
+    }
+}

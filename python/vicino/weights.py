@@ -375,6 +375,8 @@ class Weights:
         return pos.astype(np.int64)
 
     def _select(self, keep: np.ndarray, step: Step) -> "Weights":
+        if len(keep) == 0:
+            raise IdError("no unit would remain; weights need at least one unit")
         scaled = self._scaled_by()
         if scaled and len(keep) < self.n:
             warnings.warn(
@@ -453,9 +455,8 @@ class Weights:
                 "so that the new links are scaled like the others"
             )
         xy, _ = unit_locations(locations, self._ids)
-        both = call(_core.health, self._csr(), ids=self._ids)["max_asymmetry"] is None
         out, source, added = call(fn, self._csr(), np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
-                                  metric, *params.values(), both, weight, ids=self._ids)
+                                  metric, *params.values(), weight, ids=self._ids)
         step = Step(step_name, {**params, "metric": metric, "weight": weight, "links_added": len(added)})
         return self._rebuild(out, step, source=source)
 
@@ -465,8 +466,9 @@ class Weights:
         ``locations``: the units' points (as :func:`vicino.k_nearest` takes
         them) or polygons (located at their area-weighted centroids), in the
         order of ``ids`` (a pandas input's index must equal ``ids``). New
-        links weigh ``weight``; for symmetric weights each new link is added
-        both ways, so the result stays symmetric. Ties go to the unit that
+        links weigh ``weight``; when the links are symmetric (j neighbours i
+        whenever i neighbours j) each new link is added both ways, so they
+        stay symmetric. Ties go to the unit that
         comes first. Repair before standardizing. The step is recorded in
         ``recipe`` with the number of links added.
         """

@@ -220,6 +220,13 @@ impl<'a> CsrRef<'a> {
         t.indptr == self.indptr && t.indices == self.indices && t.data == self.data
     }
 
+    /// Whether j is a neighbour of i exactly when i is a neighbour of j
+    /// (the weights themselves may differ).
+    pub fn is_structurally_symmetric(&self) -> bool {
+        let t = self.transpose();
+        t.indptr == self.indptr && t.indices == self.indices
+    }
+
     /// Copy into an owned matrix.
     pub fn to_owned(&self) -> Csr {
         self.with_data(self.data.to_vec())

@@ -37,9 +37,11 @@ fn unlocated(what: &'static str, units: &[usize], located: &[bool]) -> Result<()
 }
 
 /// Links (i, j, distance) from each island i to its `k` nearest located
-/// units, and back (j, i) when `both_ways`. Sorted, without repeats.
-pub fn island_links(w: CsrRef<'_>, xy: &[f64], metric: Metric, k: usize, both_ways: bool) -> Result<Vec<(usize, usize, f64)>> {
+/// units, and back (j, i) when the links of `w` are symmetric (so they
+/// stay symmetric). Sorted, without repeats.
+pub fn island_links(w: CsrRef<'_>, xy: &[f64], metric: Metric, k: usize) -> Result<Vec<(usize, usize, f64)>> {
     let n = w.n();
+    let both_ways = w.is_structurally_symmetric();
     let (xy, located) = locations(xy, n, metric)?;
     let islands = w.islands();
     unlocated("islands", &islands, &located)?;
@@ -65,9 +67,11 @@ pub fn island_links(w: CsrRef<'_>, xy: &[f64], metric: Metric, k: usize, both_wa
 /// One link (i, j, distance) from each component other than the largest to
 /// the largest: between the closest pair of located units, i in the
 /// smaller component and j in the largest (ties to the lower i, then j);
-/// and back (j, i) when `both_ways`. Empty when the map is in one piece.
-pub fn component_links(w: CsrRef<'_>, xy: &[f64], metric: Metric, both_ways: bool) -> Result<Vec<(usize, usize, f64)>> {
+/// and back (j, i) when the links of `w` are symmetric. Empty when the map
+/// is in one piece.
+pub fn component_links(w: CsrRef<'_>, xy: &[f64], metric: Metric) -> Result<Vec<(usize, usize, f64)>> {
     let n = w.n();
+    let both_ways = w.is_structurally_symmetric();
     let (xy, located) = locations(xy, n, metric)?;
     let comps = components(w);
     if comps.count() <= 1 {
@@ -117,12 +121,17 @@ mod tests {
         // By hand: 2's nearest is 1 (distance 1), 3's nearest is 2 (distance 8).
         let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(0, 1.0)], vec![], vec![]]);
         let xy = [0.0, 0.0, 1.0, 0.0, 2.0, 0.0, 10.0, 0.0];
-        let links = island_links(w.view(), &xy, Metric::Euclidean, 1, true).unwrap();
+        let links = island_links(w.view(), &xy, Metric::Euclidean, 1).unwrap();
         assert_eq!(links, vec![(1, 2, 1.0), (2, 1, 1.0), (2, 3, 8.0), (3, 2, 8.0)]);
-        let comps = component_links(w.view(), &xy, Metric::Euclidean, false).unwrap();
-        // components {0,1}, {2}, {3}: 2 joins via 1; 3's closest unit of the largest is 1 (distance 9)
-        assert_eq!(comps, vec![(2, 1, 1.0), (3, 1, 9.0)]);
+        let comps = component_links(w.view(), &xy, Metric::Euclidean).unwrap();
+        // components {0,1}, {2}, {3}: 2 joins via 1; 3's closest unit of the largest is 1 (distance 9);
+        // the links of w are symmetric, so each goes both ways
+        assert_eq!(comps, vec![(1, 2, 1.0), (1, 3, 9.0), (2, 1, 1.0), (3, 1, 9.0)]);
+        // a one-way matrix gets one-way links
+        let one_way = Csr::from_rows(vec![vec![(1, 1.0)], vec![], vec![], vec![]]);
+        let links = island_links(one_way.view(), &xy, Metric::Euclidean, 1).unwrap();
+        assert_eq!(links, vec![(1, 0, 1.0), (2, 1, 1.0), (3, 2, 8.0)]);
         let nan = [0.0, 0.0, 1.0, 0.0, f64::NAN, 0.0, 10.0, 0.0];
-        assert!(matches!(island_links(w.view(), &nan, Metric::Euclidean, 1, true), Err(Error::Unlocated { count: 1, .. })));
+        assert!(matches!(island_links(w.view(), &nan, Metric::Euclidean, 1), Err(Error::Unlocated { count: 1, .. })));
     }
 }

@@ -81,7 +81,7 @@ fn repaired<'py>(py: Python<'py>, w: vicino_core::CsrRef<'_>, links: Vec<(usize,
     Ok((csr_out(py, m), src.into_pyarray(py), links))
 }
 
-/// Links from each island to its k nearest located units (and back when both_ways).
+/// Links from each island to its k nearest located units (and back when W's links are symmetric).
 #[pyfunction]
 pub fn connect_islands<'py>(
     py: Python<'py>,
@@ -89,28 +89,26 @@ pub fn connect_islands<'py>(
     xy: PyReadonlyArray1<'py, f64>,
     metric: &str,
     k: usize,
-    both_ways: bool,
     weight: f64,
 ) -> PyResult<Repaired<'py>> {
     let w = w.view(py)?;
     let xy = slice(&xy)?;
-    let links = run(py, || repair::island_links(w, xy, Metric::parse(metric)?, k, both_ways))?;
+    let links = run(py, || repair::island_links(w, xy, Metric::parse(metric)?, k))?;
     repaired(py, w, links, weight)
 }
 
-/// One link from each smaller component to the largest (and back when both_ways).
+/// One link from each smaller component to the largest (and back when W's links are symmetric).
 #[pyfunction]
 pub fn connect_components<'py>(
     py: Python<'py>,
     w: CsrArgs<'py>,
     xy: PyReadonlyArray1<'py, f64>,
     metric: &str,
-    both_ways: bool,
     weight: f64,
 ) -> PyResult<Repaired<'py>> {
     let w = w.view(py)?;
     let xy = slice(&xy)?;
-    let links = run(py, || repair::component_links(w, xy, Metric::parse(metric)?, both_ways))?;
+    let links = run(py, || repair::component_links(w, xy, Metric::parse(metric)?))?;
     repaired(py, w, links, weight)
 }
 

@@ -223,7 +223,7 @@ class Audit:
     def __repr__(self) -> str:
         import textwrap
 
-        lines = [f"Weights audit: {self._head()}"]
+        lines = textwrap.wrap(f"Weights audit: {self._head()}", 78, subsequent_indent="  ")
         width = max(len(f.level) for f in self.findings)
         for f in self.findings:
             mark = f"{f.level:<{width}}"
@@ -235,7 +235,7 @@ class Audit:
         label = max(len(v) for v in self.histogram["neighbours"])
         for row in self.histogram.itertuples():
             bar = "=" * max(int(round(30 * row.units / top)), 1 if row.units else 0)
-            lines.append(f"    {row.neighbours:>{label}} | {bar} {row.units:,}")
+            lines.append(f"    {row.neighbours:>{label}} | {bar + ' ' if bar else ''}{row.units:,}")
         return "\n".join(lines)
 
     def _repr_html_(self) -> str:

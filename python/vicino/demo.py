@@ -12,6 +12,10 @@ settlement, clipped to an invented coastline and with its borders surveyed to
 a 100 m grid (so a few short borders shrink to a corner where four districts
 meet). Each settlement of the skerries stands on its own small islet, which
 touches nothing. The districts need shapely; without it the demo skips them.
+
+Every candidate matrix is audited; the islets, islands under contiguity, are
+then linked in by assumption (a ferry to the coast) and the repaired weights
+join the comparison of Moran's I.
 """
 
 from __future__ import annotations
@@ -24,6 +28,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from .audit import LEVELS
 from .build import cliff_ord, contiguity, k_nearest, within_distance
 from .stats import moran
 
@@ -41,6 +46,12 @@ CAUTIONS = (
 DISTRICT_CAUTION = (
     "The districts are drawn around the settlements themselves, so their contiguity is one more "
     "view of nearness, not independent information about who neighbours whom."
+)
+REPAIR_CAUTION = (
+    "A repair adds links by assumption, not from the data: nothing in the districts says that the "
+    "skerries neighbour the vale. The links to the islets stand for a ferry route, a modelling choice "
+    "like any other weights; they change Moran's I (section\xa06), so report the unrepaired result beside "
+    "it, or study the skerries on their own (drop_islands() removes them)."
 )
 NO_SHAPELY = "Districts skipped: they need shapely (pip install 'vicino[geometry]')."
 
@@ -159,7 +170,7 @@ def _counts_summary(weights: dict) -> pd.DataFrame:
 
 def _fill(text: str, width: int = 78) -> str:
     """Wrap text; a no-break space (\\xa0) keeps two words on one line."""
-    return textwrap.fill(text, width=width).replace("\xa0", " ")
+    return textwrap.fill(text, width=width, break_on_hyphens=False).replace("\xa0", " ")
 
 
 def _names(names, width: int = 78) -> str:
@@ -187,7 +198,7 @@ def _district_section(places: pd.DataFrame, seed: int):
         "point of border; rook: sharing a stretch of border."))
     print()
     print(summary.to_string())
-    corner = (built["queen"].nnz - built["rook"].nnz) // 2
+    corner = (built["queen"] - built["rook"]).nnz // 2  # links of queen that rook lacks, each pair both ways
     if corner:
         print(f"\nQueen adds {corner} pairs of districts that meet only at a corner.")
     else:
@@ -206,7 +217,128 @@ def _district_section(places: pd.DataFrame, seed: int):
     print()
     print(_fill(DISTRICT_CAUTION))
     built["Cliff-Ord"] = cliff_ord(shapes)  # border shares over centroid distances, rook links
-    return built, summary, counts
+    return built, summary, counts, shapes
+
+
+def _audit_table(audits: dict) -> pd.DataFrame:
+    """One row per candidate: islands, groups, and the checks at each level (ok ones counted)."""
+    rows = []
+    for name, report in audits.items():
+        row = {"weights": name, "islands": len(report.islands), "groups": report.components.count}
+        for level in LEVELS[:-1]:
+            row[level] = ", ".join(f.check for f in report.findings if f.level == level) or "-"
+        row["ok"] = f"{sum(f.level == 'ok' for f in report.findings)}/{len(report.findings)}"
+        rows.append(row)
+    return pd.DataFrame(rows).set_index("weights")
+
+
+def _findings(audits: dict) -> pd.DataFrame:
+    """Every finding of every audit, one row each (the audit.csv table)."""
+    return pd.concat({name: report.to_frame() for name, report in audits.items()}, names=["weights", "finding"])
+
+
+def repair_islets(queen, shapes: pd.Series):
+    """Link the islets of the skerries into queen contiguity of the districts.
+
+    First each island gets a link to the district with the nearest centroid
+    (``connect_islands``), then each group still apart gets a link to the
+    largest through its closest pair of districts (``connect_components``).
+    Returns the weights after each of the two steps.
+    """
+    linked = queen.connect_islands(shapes, k=1)
+    return linked, linked.connect_components(shapes)
+
+
+def _added_pairs(before, after, step: str, shapes: pd.Series) -> pd.DataFrame:
+    """The pairs of districts that a repair step linked, each pair once (a district outside the
+    largest group first), with the distance between their centroids."""
+    import shapely
+
+    edges = (after - before).to_edges()  # the links of `after` that `before` lacks
+    outside = before.audit().components.labels.ne(0)  # group 0 is the largest
+    ahead = outside[edges["focal"]].to_numpy(), outside[edges["neighbor"]].to_numpy()
+    at = after.ids.get_indexer
+    first = at(edges["focal"]) < at(edges["neighbor"])
+    edges = edges[(ahead[0] & ~ahead[1]) | ((ahead[0] == ahead[1]) & first)]
+    # the districts carry the survey grid as their precision, and shapely would round the
+    # centroids to it: drop it first, so the centroids are the ones the repair used
+    centre = shapely.centroid(shapely.set_precision(shapes.to_numpy(), 0.0))
+    where = shapes.index.get_indexer
+    distance = shapely.distance(centre[where(edges["focal"])], centre[where(edges["neighbor"])])
+    return pd.DataFrame({"step": step, "district": edges["focal"].to_numpy(),
+                         "linked_to": edges["neighbor"].to_numpy(), "distance_km": distance.round(1)})
+
+
+def _pairs_text(pairs: pd.DataFrame) -> str:
+    if pairs.empty:
+        return "  (none)"
+    width = max(len(f"{a} - {b}") for a, b in zip(pairs["district"], pairs["linked_to"]))
+    return "\n".join(f"  {f'{a} - {b}':<{width}}  {d:5.1f} km"
+                     for a, b, d in zip(pairs["district"], pairs["linked_to"], pairs["distance_km"]))
+
+
+def _sizes(report) -> str:
+    return ", ".join(str(s) for s in report.components.sizes)
+
+
+def _repair_section(places: pd.DataFrame, queen, shapes: pd.Series):
+    """Audit queen contiguity, link the islets in, audit again: printed report, weights, table."""
+    skerries = set(places.index[places["region"] == "Tarrow Skerries"])
+    before = queen.audit()
+    alone = set(before.islands)
+    which = ("exactly the islets of the Tarrow\xa0Skerries" if alone == skerries
+             else f"{len(alone & skerries)} of them islets of the Tarrow\xa0Skerries")
+    print(_fill(
+        f"Queen contiguity leaves {len(before.islands)} islands ({which}) and splits the region into "
+        f"{before.components.count} groups (sizes {_sizes(before)}). Its audit in full:"))
+    print()
+    print(before)
+    linked, repaired = repair_islets(queen, shapes)
+    first = _added_pairs(queen, linked, "connect_islands", shapes)
+    second = _added_pairs(linked, repaired, "connect_components", shapes)
+    middle = linked.audit()
+    print()
+    print(_fill(
+        f"connect_islands(districts, k=1) links each island to the district with the nearest centroid "
+        f"({len(first)} pairs):"))
+    print(_pairs_text(first))
+    among = first["district"].isin(skerries) & first["linked_to"].isin(skerries)
+    note = (" The nearest district of an islet is another islet, so the skerries still stand apart."
+            if among.all() and middle.components.count > 1 else "")
+    print(_fill(
+        f"Islands left: {len(middle.islands)}; groups: {middle.components.count} (sizes {_sizes(middle)})."
+        + note))
+    if len(second):
+        print()
+        print(_fill(
+            "connect_components(districts) then links each smaller group to the largest through its "
+            f"closest pair of districts ({len(second)} pairs, a ferry to the coast):"))
+        print(_pairs_text(second))
+    after = repaired.audit()
+    print()
+    print(_fill(f"Islands left: {len(after.islands)}; groups: {after.components.count}. "
+                "The audit of the repaired queen weights:"))
+    print()
+    print(after)
+    print()
+    print(_fill(REPAIR_CAUTION))
+    return repaired, after, pd.concat([first, second], ignore_index=True)
+
+
+def _save_plots(out: Path, queen, repaired, shapes: pd.Series) -> list[str]:
+    """PNG pictures of the queen weights before and after repair; none without matplotlib."""
+    try:
+        from matplotlib.figure import Figure
+    except ImportError:
+        return []
+    drawn = {"queen_counts.png": lambda ax: queen.plot_counts(ax=ax),
+             "queen_links.png": lambda ax: queen.plot_links(shapes, ax=ax),
+             "queen_repaired_links.png": lambda ax: repaired.plot_links(shapes, ax=ax)}
+    for name, draw in drawn.items():
+        fig = Figure(figsize=(8, 4.5))  # no pyplot: nothing opens a window or keeps the figure
+        draw(fig.subplots())
+        fig.savefig(out / name, dpi=110, bbox_inches="tight")
+    return list(drawn)
 
 
 def _rule(title: str) -> str:
@@ -217,7 +349,9 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     """Run the demo, print its report and write its tables as CSV to ``out_dir``.
 
     Without shapely the districts are skipped (with a message), and so are
-    their tables and their rows of the Moran table.
+    their tables, the repair and their rows of the Moran table. With
+    matplotlib, pictures of the queen weights before and after repair are
+    saved to ``out_dir`` as PNG too.
     """
     places = settlements(seed)
     print("vicino demo: the Brannock Vale and the Tarrow Skerries (an invented region)")
@@ -248,13 +382,38 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     print(_rule("2. Districts: queen and rook contiguity"))
     district = _district_section(places, seed)
     tables = {"settlements": places, "neighbour_counts": counts, "candidates": summary}
+    shapes = None
     if district is not None:
-        built, contiguity_summary, district_counts = district
+        built, contiguity_summary, district_counts, shapes = district
         candidates.update(built)
         tables["contiguity"] = contiguity_summary
         tables["district_counts"] = district_counts
 
-    print(_rule("3. Row-standardized weights and spatial lags"))
+    print(_rule("3. Audit of every candidate"))
+    audits = {name: w.audit() for name, w in candidates.items()}
+    print(_fill(
+        "w.audit() checks islands, connected groups, symmetry, zero columns, self-links, density and "
+        "uneven counts; each finding is a problem (fix it before use), a warning, a note (check that it "
+        "is intended) or ok. The findings of each candidate:"))
+    print()
+    print(_audit_table(audits).to_string())
+    print()
+    print(_fill(
+        "k-nearest links need not run both ways (one settlement may be among another's nearest but not "
+        "the reverse), hence their notes; Cliff-Ord weights are asymmetric by construction. Every "
+        "finding in full is in audit.csv; the queen weights are audited in full below."))
+
+    print(_rule("4. Repairing the islets of the skerries"))
+    repaired = None
+    if shapes is None:
+        print("Repair skipped: it links the islets of the districts, which need shapely.")
+    else:
+        repaired, audits["queen, repaired"], repairs = _repair_section(places, built["queen"], shapes)
+        candidates["queen, repaired"] = repaired
+        tables["repairs"] = repairs
+    tables["audit"] = _findings(audits)
+
+    print(_rule("5. Row-standardized weights and spatial lags"))
     standardized = {name: w.standardize("row", islands="keep") for name, w in candidates.items()}
     lags = pd.DataFrame({"cistern_share": places["cistern_share"]})
     for name, w in standardized.items():
@@ -263,7 +422,7 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     print(lags[shown].head(8).round(2).to_string())
     print(f"(first 8 settlements; all {len(standardized)} lags are in lags.csv)")
 
-    print(_rule("4. Moran's I of the cistern share under each candidate"))
+    print(_rule("6. Moran's I of the cistern share under each candidate"))
     rows = []
     for name, w in standardized.items():
         r = moran(places["cistern_share"], w, permutations=permutations, seed=seed)
@@ -277,6 +436,8 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     print(f"({permutations} permutations: the smallest possible p is {1 / (permutations + 1):.4g})")
     if district is not None:
         print("queen, rook and Cliff-Ord: the districts, row-standardized, islands kept")
+        print(_fill("queen, repaired: queen with the islets linked in by assumption (section\xa04), "
+                    "row-standardized, no islands left"))
 
     print(_rule("Reading the results"))
     print(_fill(CAUTIONS))
@@ -289,4 +450,8 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
             df.to_csv(out / f"{name}.csv")
         print(f"\nTables written to {out.resolve()}:")
         print(_names(f"{n}.csv" for n in tables))
+        plots = _save_plots(out, built["queen"], repaired, shapes) if repaired is not None else []
+        if plots:
+            print("Pictures of the queen weights, before and after repair:")
+            print(_names(plots))
     return tables

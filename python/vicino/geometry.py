@@ -266,6 +266,15 @@ def unit_locations(locations, ids: pd.Index):
     else:
         xy, units = as_points(locations)
         geoms = None
+        bad = ~np.isfinite(xy).all(axis=1)
+        if bad.any():
+            named = ids[bad] if len(units) == len(ids) else units[bad]
+            where = np.flatnonzero(bad)
+            raise InvalidInputError(
+                f"{int(bad.sum())} location(s) have NaN or infinite coordinates: ids {examples(named)}; "
+                "give every unit a location, or drop those units first",
+                count=int(bad.sum()), positions=where[:10].tolist(), ids=list(named[:10]),
+            )
     if len(units) != len(ids):
         raise InvalidInputError(
             f"there are {len(units)} locations but the weights have {len(ids)} units; give one location per unit"

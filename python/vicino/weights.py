@@ -342,7 +342,8 @@ class Weights:
         if not self._ids.equals(other._ids):
             raise IdError(
                 f"weights combined with {symbol} must have the same ids in the same order "
-                f"({self.n} and {other.n} units here); use other.align(weights.ids) first"
+                f"({self.n} and {other.n} units here); use other.align(weights.ids) to reorder, or "
+                "subset(ids) / drop(ids) on either to keep only the units they share"
             )
         out = call(_core.combine, self._csr(), other._csr(), op, ids=self._ids)
         step = Step(op, {"other": " -> ".join(str(s) for s in other._recipe) or "(given matrix)"})
@@ -377,13 +378,13 @@ class Weights:
     def _select(self, keep: np.ndarray, step: Step) -> "Weights":
         if len(keep) == 0:
             raise IdError("no unit would remain; weights need at least one unit")
-        scaled = self._scaled_by()
-        if scaled and len(keep) < self.n:
-            warnings.warn(
-                f"these weights were standardized ({scaled}); after removing units their rows no longer are: "
-                "standardize again", UserWarning, stacklevel=3,
-            )
         out, source = call(_core.select, self._csr(), keep, ids=self._ids)
+        scaled = self._scaled_by()
+        if scaled and len(keep) < self.n and len(source) < np.diff(self._indptr)[keep].sum():
+            warnings.warn(
+                f"these weights were standardized ({scaled}) and some kept units lost links to removed "
+                "units, so they are no longer standardized: standardize again", UserWarning, stacklevel=3,
+            )
         dup = "same" if len(keep) == self.n else None
         return self._rebuild(out, step, source=source, ids=self._ids.take(keep), keep=keep, duplicates=dup)
 
@@ -470,7 +471,8 @@ class Weights:
         whenever i neighbours j) each new link is added both ways, so they
         stay symmetric. Ties go to the unit that
         comes first. Repair before standardizing. The step is recorded in
-        ``recipe`` with the number of links added.
+        ``recipe`` with the number of links added; in ``to_edges()`` the
+        builder's facts of the new links (distance, border length) are NaN.
         """
         k = whole_number(k, "k", minimum=1)
         return self._repair(_core.connect_islands, locations, metric, weight, "connect_islands", {"k": k})

@@ -220,11 +220,24 @@ impl<'a> CsrRef<'a> {
         t.indptr == self.indptr && t.indices == self.indices && t.data == self.data
     }
 
+    /// The weight w_ji stored for the entry (i, j), if any: a binary search
+    /// in row j.
+    #[inline]
+    pub fn get(&self, i: usize, j: usize) -> Option<f64> {
+        let (c, v) = self.row(i);
+        c.binary_search(&(j as i64)).ok().map(|p| v[p])
+    }
+
     /// Whether j is a neighbour of i exactly when i is a neighbour of j
-    /// (the weights themselves may differ).
+    /// (the weights themselves may differ). Looks every link up in the
+    /// other row, in parallel: O(nnz log(max row)), no allocation.
     pub fn is_structurally_symmetric(&self) -> bool {
-        let t = self.transpose();
-        t.indptr == self.indptr && t.indices == self.indices
+        let check = |i: usize| self.row(i).0.iter().all(|&j| self.get(j as usize, i).is_some());
+        if self.nnz() >= PARALLEL_MIN_NNZ {
+            (0..self.n).into_par_iter().with_min_len(256).all(check)
+        } else {
+            (0..self.n).all(check)
+        }
     }
 
     /// Copy into an owned matrix.

@@ -104,7 +104,7 @@ pub enum Error {
     #[error("the link from position {row} to position {col} exists already")]
     LinkExists { row: usize, col: usize },
     #[error(
-        "{count} {what} have no location (empty geometry), first at positions {first:?}; \
+        "{count} unit(s) among the {what} have no location (empty geometry), first at positions {first:?}; \
          drop them first (drop_islands() or drop(ids)), or give them a location"
     )]
     Unlocated { what: &'static str, count: usize, first: Vec<usize> },

@@ -95,37 +95,43 @@ fn merge_rows(ac: &[i64], av: &[f64], bc: &[i64], bv: &[f64], mut f: impl FnMut(
     }
 }
 
-/// Components, column counts, self-links and asymmetry in one go.
+/// Components, column counts, self-links and asymmetry in one go. Each
+/// link is looked up in the other unit's row (a binary search), so no
+/// transpose is built; rows are visited in parallel.
 pub fn health(w: CsrRef<'_>) -> Health {
     let n = w.n();
-    let t = w.transpose();
-    let tv = t.view();
-    let in_counts = tv.counts();
     // per row: (self-links, one-way links, largest asymmetry with its column)
     let rows: Vec<(usize, usize, f64, usize)> = w.map_rows(|i, ac, av| {
-        let (bc, bv) = tv.row(i);
         let (mut selfs, mut one_way, mut worst, mut at) = (0, 0, 0.0f64, usize::MAX);
-        merge_rows(ac, av, bc, bv, |col, a, b| {
-            if col as usize == i {
-                selfs += a.is_some() as usize;
-                return;
+        for (&j, &x) in ac.iter().zip(av) {
+            let j = j as usize;
+            if j == i {
+                selfs += 1;
+                continue;
             }
-            if b.is_none() {
-                one_way += 1;
-            }
-            let d = (a.map_or(0.0, |x| x.1) - b.unwrap_or(0.0)).abs();
-            if d > worst {
+            let back = w.get(j, i);
+            one_way += back.is_none() as usize;
+            // a pair linked one way only is seen from its one row; a two-way pair from both
+            let d = (x - back.unwrap_or(0.0)).abs();
+            if d > worst || (d == worst && d > 0.0 && j < at) {
                 worst = d;
-                at = col as usize;
+                at = j;
             }
-        });
+        }
         (selfs, one_way, worst, at)
     });
+    let mut in_counts = vec![0usize; n];
+    for &j in w.indices() {
+        in_counts[j as usize] += 1;
+    }
     let mut max_asymmetry: Option<(f64, usize, usize)> = None;
     for (i, &(_, _, d, j)) in rows.iter().enumerate() {
-        // each pair is seen from both rows with the same value: keep the first (lowest i, then j)
-        if d > 0.0 && max_asymmetry.is_none_or(|m| d > m.0) {
-            max_asymmetry = Some((d, i.min(j), i.max(j)));
+        // the largest value; among equals the lowest pair (i < j)
+        if d > 0.0 {
+            let cand = (d, i.min(j), i.max(j));
+            if max_asymmetry.is_none_or(|m| d > m.0 || (d == m.0 && (cand.1, cand.2) < (m.1, m.2))) {
+                max_asymmetry = Some(cand);
+            }
         }
     }
     Health {
@@ -133,7 +139,7 @@ pub fn health(w: CsrRef<'_>) -> Health {
         in_counts,
         self_links: rows.iter().map(|r| r.0).sum(),
         one_way: rows.iter().map(|r| r.1).sum(),
-        max_asymmetry: max_asymmetry.filter(|_| n > 0),
+        max_asymmetry,
     }
 }
 
@@ -357,6 +363,9 @@ pub fn add_links(w: CsrRef<'_>, mut links: Vec<(usize, usize, f64)>) -> Result<(
         if !(v.is_finite() && v > 0.0) {
             return Err(Error::NonFiniteWeight { row: i, col: j, value: v });
         }
+    }
+    if links.is_empty() {
+        return Ok((w.to_owned(), (0..w.nnz() as i64).collect()));
     }
     links.sort_unstable_by_key(|&(i, j, _)| (i, j));
     let mut indptr = Vec::with_capacity(n + 1);

@@ -97,7 +97,7 @@ pub fn component_links(w: CsrRef<'_>, xy: &[f64], metric: Metric) -> Result<Vec<
     let missing: Vec<usize> = (1..comps.count()).filter(|&c| best[c].is_none()).collect();
     if !missing.is_empty() {
         let units: Vec<usize> = (0..n).filter(|&u| missing.binary_search(&(comps.labels[u] as usize)).is_ok()).collect();
-        return Err(Error::Unlocated { what: "components whose units", count: units.len(), first: units.into_iter().take(crate::error::FIRST_FEW).collect() });
+        return Err(Error::Unlocated { what: "smaller components", count: units.len(), first: units.into_iter().take(crate::error::FIRST_FEW).collect() });
     }
     let mut links = Vec::new();
     for &(d, i, j) in best[1..].iter().flatten() {

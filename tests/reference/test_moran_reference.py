@@ -3,7 +3,6 @@ written out here and evaluated with NumPy on dense matrices."""
 
 from __future__ import annotations
 
-import json
 import os
 import subprocess
 import sys

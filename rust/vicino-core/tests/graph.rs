@@ -2,23 +2,15 @@
 //! brute-force oracle (Floyd-Warshall path lengths, dense set operations,
 //! pairwise distances) written here from the definitions.
 
+mod common;
+
+use common::dense;
 use proptest::prelude::*;
 use vicino_core::graph::{add_links, combine, components, health, order, select, symmetrize, SetOp, Symmetrize};
 use vicino_core::neighbors::Metric;
 use vicino_core::repair::{component_links, island_links};
 use vicino_core::{Csr, CsrRef};
 
-fn dense(w: CsrRef<'_>) -> Vec<Vec<f64>> {
-    let n = w.n();
-    let mut a = vec![vec![0.0; n]; n];
-    for (i, row) in a.iter_mut().enumerate() {
-        let (c, v) = w.row(i);
-        for (&j, &x) in c.iter().zip(v) {
-            row[j as usize] = x;
-        }
-    }
-    a
-}
 
 /// A non-negative n x n matrix with about `share` of entries stored.
 fn matrix(max_n: usize, share: f64, diagonal: bool) -> impl Strategy<Value = Csr> {

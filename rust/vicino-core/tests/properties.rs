@@ -2,6 +2,9 @@
 //! radius and Moran's I, each against a dense brute-force oracle, a published
 //! formula or an exact identity.
 
+mod common;
+
+use common::dense;
 use proptest::prelude::*;
 use vicino_core::error::Error;
 use vicino_core::lag::{lag, lag_columns};
@@ -17,17 +20,6 @@ use vicino_core::{Csr, CsrRef};
 // ---------------------------------------------------------------------------
 // helpers
 
-fn dense(w: CsrRef<'_>) -> Vec<Vec<f64>> {
-    let n = w.n();
-    let mut a = vec![vec![0.0; n]; n];
-    for (i, row) in a.iter_mut().enumerate() {
-        let (c, v) = w.row(i);
-        for (&j, &x) in c.iter().zip(v) {
-            row[j as usize] += x;
-        }
-    }
-    a
-}
 
 /// oracle: brute force dense product W x.
 fn dense_mul(a: &[Vec<f64>], x: &[f64]) -> Vec<f64> {

@@ -149,7 +149,7 @@ def test_k_nearest_ties_break_by_position(seed, k):
         warnings.simplefilter("error", vicino.DuplicateLocationWarning)
         w = vicino.k_nearest(xy, k)
     # integer squared distances are exact, so ties are exact too
-    assert_integer_knn(w, xy, k)
+    d2 = assert_integer_knn(w, xy, k)
     # the grid really has ties at the k-th distance somewhere (the test is meaningful)
     kth = np.sort(np.where(np.eye(len(xy), dtype=bool), np.iinfo(np.int64).max, d2), axis=1)
     assert (kth[:, k - 1] == kth[:, k]).any()  # reference: numpy brute force

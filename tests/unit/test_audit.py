@@ -16,7 +16,6 @@ import warnings
 from html.parser import HTMLParser
 
 import numpy as np
-import pandas as pd
 import pytest
 from scipy.sparse.csgraph import connected_components, shortest_path
 

@@ -166,38 +166,71 @@ pub fn order(w: CsrRef<'_>, k: usize, cumulative: bool) -> Result<Csr> {
         return Err(Error::InvalidOrder { k });
     }
     let n = w.n();
-    let rows = rows_of(n, w.nnz(), |i| {
-        // breadth-first by levels on sorted sets: `reached` holds every unit
-        // at distance < the current level (and i), `level` the current level
-        let mut reached: Vec<i64> = vec![i as i64];
-        let mut level: Vec<i64> = w.row(i).0.iter().copied().filter(|&j| j != i as i64).collect();
-        let mut out: Vec<i64> = Vec::new();
-        let mut next: Vec<i64> = Vec::new();
-        for step in 1..=k {
-            if cumulative || step == k {
-                out.extend_from_slice(&level);
-            }
-            if step == k || level.is_empty() {
-                break;
-            }
-            // the next level: neighbours of the level not reached before
-            reached.extend_from_slice(&level);
-            reached.sort_unstable(); // two disjoint sorted runs
-            next.clear();
-            for &u in &level {
-                next.extend(w.row(u as usize).0.iter().copied().filter(|j| reached.binary_search(j).is_err()));
-            }
-            next.sort_unstable();
-            next.dedup();
-            std::mem::swap(&mut level, &mut next);
+    // blocks of rows, each with one output buffer; `seen` is a per-thread
+    // stamp per unit (seen[j] == i + 1: j already reached from row i), so
+    // it never needs clearing
+    const BLOCK: usize = 2048;
+    let block = |seen: &mut Vec<u32>, b: usize| {
+        if seen.len() != n {
+            *seen = vec![0u32; n];
         }
-        if cumulative {
-            out.sort_unstable();
+        let (lo, hi) = (b * BLOCK, ((b + 1) * BLOCK).min(n));
+        let (mut level, mut next) = (Vec::new(), Vec::new());
+        let mut cols: Vec<i64> = Vec::new();
+        let mut lens: Vec<i64> = Vec::with_capacity(hi - lo);
+        for i in lo..hi {
+            let start = cols.len();
+            let stamp = i as u32 + 1;
+            seen[i] = stamp;
+            level.clear();
+            for &j in w.row(i).0 {
+                if seen[j as usize] != stamp {
+                    seen[j as usize] = stamp;
+                    level.push(j);
+                }
+            }
+            // breadth-first by levels: every unit is taken at its first (shortest) level
+            for step in 1..=k {
+                if cumulative || step == k {
+                    cols.extend_from_slice(&level);
+                }
+                if step == k || level.is_empty() {
+                    break;
+                }
+                next.clear();
+                for &u in &level {
+                    for &j in w.row(u as usize).0 {
+                        if seen[j as usize] != stamp {
+                            seen[j as usize] = stamp;
+                            next.push(j);
+                        }
+                    }
+                }
+                std::mem::swap(&mut level, &mut next);
+            }
+            cols[start..].sort_unstable();
+            lens.push((cols.len() - start) as i64);
         }
-        let ones = vec![1.0; out.len()];
-        (out, ones)
-    });
-    Ok(from_sorted_rows(n, rows))
+        (cols, lens)
+    };
+    let blocks = n.div_ceil(BLOCK);
+    assert!(n < u32::MAX as usize, "order supports fewer than 2^32 - 1 units");
+    let parts: Vec<(Vec<i64>, Vec<i64>)> = if w.nnz() >= PARALLEL_MIN_NNZ {
+        (0..blocks).into_par_iter().with_min_len(8).map_init(Vec::new, block).collect()
+    } else {
+        let mut seen = Vec::new();
+        (0..blocks).map(|b| block(&mut seen, b)).collect()
+    };
+    let mut indptr = Vec::with_capacity(n + 1);
+    indptr.push(0i64);
+    for (_, lens) in &parts {
+        for &l in lens {
+            indptr.push(indptr[indptr.len() - 1] + l);
+        }
+    }
+    let indices: Vec<i64> = parts.into_iter().flat_map(|(c, _)| c).collect();
+    let data = vec![1.0; indices.len()];
+    Ok(Csr::from_canonical(n, indptr, indices, data))
 }
 
 /// How to combine the links of two matrices over the same units.

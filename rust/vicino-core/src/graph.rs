@@ -132,30 +132,44 @@ pub fn health(w: CsrRef<'_>) -> Health {
     Health { components: components(w), in_counts, self_links, one_way, max_asymmetry }
 }
 
-/// Assemble canonical CSR from rows that are already sorted by column.
-fn from_sorted_rows(n: usize, rows: Vec<(Vec<i64>, Vec<f64>)>) -> Csr {
+/// Build CSR buffers row by row: `row(i, cols, vals)` appends row i's
+/// entries, sorted by column. Blocks of rows run in parallel when the
+/// matrix is large, each into one buffer, stitched in row order.
+fn build_rows<T: Copy + Send>(
+    n: usize,
+    nnz: usize,
+    row: impl Fn(usize, &mut Vec<i64>, &mut Vec<T>) + Sync,
+) -> (Vec<i64>, Vec<i64>, Vec<T>) {
+    const BLOCK: usize = 2048;
+    let block = |b: usize| {
+        let (mut cols, mut vals, mut lens) = (Vec::new(), Vec::new(), Vec::new());
+        for i in b * BLOCK..((b + 1) * BLOCK).min(n) {
+            let before = cols.len();
+            row(i, &mut cols, &mut vals);
+            lens.push((cols.len() - before) as i64);
+        }
+        (cols, vals, lens)
+    };
+    let blocks = n.div_ceil(BLOCK);
+    let parts: Vec<(Vec<i64>, Vec<T>, Vec<i64>)> = if nnz >= PARALLEL_MIN_NNZ {
+        (0..blocks).into_par_iter().map(block).collect()
+    } else {
+        (0..blocks).map(block).collect()
+    };
     let mut indptr = Vec::with_capacity(n + 1);
     indptr.push(0i64);
-    for (c, _) in &rows {
-        indptr.push(indptr[indptr.len() - 1] + c.len() as i64);
+    for (_, _, lens) in &parts {
+        for &l in lens {
+            indptr.push(indptr[indptr.len() - 1] + l);
+        }
     }
-    let nnz = indptr[n] as usize;
-    let mut indices = Vec::with_capacity(nnz);
-    let mut data = Vec::with_capacity(nnz);
-    for (c, v) in rows {
+    let total = indptr[n] as usize;
+    let (mut indices, mut data) = (Vec::with_capacity(total), Vec::with_capacity(total));
+    for (c, v, _) in parts {
         indices.extend_from_slice(&c);
         data.extend_from_slice(&v);
     }
-    Csr::from_canonical(n, indptr, indices, data)
-}
-
-/// Apply `f` to every row index, in parallel when the matrix is large.
-fn rows_of<T: Send>(n: usize, nnz: usize, f: impl Fn(usize) -> T + Sync) -> Vec<T> {
-    if nnz >= PARALLEL_MIN_NNZ {
-        (0..n).into_par_iter().with_min_len(64).map(&f).collect()
-    } else {
-        (0..n).map(f).collect()
-    }
+    (indptr, indices, data)
 }
 
 /// Binary weights linking each unit to the units exactly `k` links away
@@ -260,9 +274,8 @@ pub fn combine(a: CsrRef<'_>, b: CsrRef<'_>, op: SetOp) -> Result<Csr> {
     if a.n() != b.n() {
         return Err(Error::LengthMismatch { what: "the second matrix", expected: a.n(), got: b.n() });
     }
-    let rows = rows_of(a.n(), a.nnz() + b.nnz(), |i| {
+    let (indptr, indices, data) = build_rows(a.n(), a.nnz() + b.nnz(), |i, cols, ones: &mut Vec<f64>| {
         let ((ac, av), (bc, bv)) = (a.row(i), b.row(i));
-        let mut cols = Vec::new();
         merge_rows(ac, av, bc, bv, |c, x, y| {
             let keep = match op {
                 SetOp::Union => true,
@@ -271,12 +284,11 @@ pub fn combine(a: CsrRef<'_>, b: CsrRef<'_>, op: SetOp) -> Result<Csr> {
             };
             if keep {
                 cols.push(c);
+                ones.push(1.0);
             }
         });
-        let ones = vec![1.0; cols.len()];
-        (cols, ones)
     });
-    Ok(from_sorted_rows(a.n(), rows))
+    Ok(Csr::from_canonical(a.n(), indptr, indices, data))
 }
 
 /// How to make a matrix symmetric from w_ij and w_ji (a missing link weighs 0).
@@ -305,9 +317,8 @@ impl Symmetrize {
 pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Csr {
     let t = w.transpose();
     let tv = t.view();
-    let rows = rows_of(w.n(), 2 * w.nnz(), |i| {
+    let (indptr, indices, data) = build_rows(w.n(), 2 * w.nnz(), |i, cols, vals| {
         let ((ac, av), (bc, bv)) = (w.row(i), tv.row(i));
-        let (mut cols, mut vals) = (Vec::new(), Vec::new());
         merge_rows(ac, av, bc, bv, |c, x, y| {
             let (x, y) = (x.map(|x| x.1), y);
             let v = match how {
@@ -323,9 +334,8 @@ pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Csr {
                 vals.push(v);
             }
         });
-        (cols, vals)
     });
-    from_sorted_rows(w.n(), rows)
+    Csr::from_canonical(w.n(), indptr, indices, data)
 }
 
 /// The weights among the units `keep` (positions, in the new order; no
@@ -344,32 +354,29 @@ pub fn select(w: CsrRef<'_>, keep: &[usize]) -> Result<(Csr, Vec<i64>)> {
         new_pos[u] = r as i64;
     }
     let base = w.indptr();
-    let rows = rows_of(keep.len(), w.nnz(), |r| {
-        let u = keep[r];
-        let (c, _) = w.row(u);
-        let mut kept: Vec<(i64, i64)> = c
-            .iter()
-            .enumerate()
-            .filter_map(|(e, &j)| (new_pos[j as usize] >= 0).then(|| (new_pos[j as usize], base[u] + e as i64)))
-            .collect();
-        kept.sort_unstable();
-        kept
-    });
-    let m = keep.len();
-    let mut indptr = Vec::with_capacity(m + 1);
-    indptr.push(0i64);
-    let mut indices = Vec::new();
-    let mut data = Vec::new();
-    let mut source = Vec::new();
     let all = w.data();
-    for row in rows {
-        for (c, e) in row {
-            indices.push(c);
-            data.push(all[e as usize]);
-            source.push(e);
+    let m = keep.len();
+    let (indptr, indices, source) = build_rows(m, w.nnz(), |r, cols, src: &mut Vec<i64>| {
+        let u = keep[r];
+        let start = cols.len();
+        for (e, &j) in w.row(u).0.iter().enumerate() {
+            let to = new_pos[j as usize];
+            if to >= 0 {
+                cols.push(to);
+                src.push(base[u] + e as i64);
+            }
         }
-        indptr.push(indices.len() as i64);
-    }
+        // the new order of the columns need not be the old one
+        if cols[start..].windows(2).any(|p| p[0] > p[1]) {
+            let mut pairs: Vec<(i64, i64)> = cols[start..].iter().copied().zip(src[start..].iter().copied()).collect();
+            pairs.sort_unstable();
+            for (k, (c, e)) in pairs.into_iter().enumerate() {
+                cols[start + k] = c;
+                src[start + k] = e;
+            }
+        }
+    });
+    let data = source.iter().map(|&e| all[e as usize]).collect();
     Ok((Csr::from_canonical(m, indptr, indices, data), source))
 }
 

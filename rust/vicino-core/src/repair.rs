@@ -59,7 +59,7 @@ pub fn island_links(w: CsrRef<'_>, xy: &[f64], metric: Metric, k: usize) -> Resu
             }
         }
     }
-    links.sort_unstable_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+    links.sort_unstable_by_key(|l| (l.0, l.1));
     links.dedup_by_key(|l| (l.0, l.1));
     Ok(links)
 }
@@ -106,7 +106,7 @@ pub fn component_links(w: CsrRef<'_>, xy: &[f64], metric: Metric) -> Result<Vec<
             links.push((j, i, d));
         }
     }
-    links.sort_unstable_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+    links.sort_unstable_by_key(|l| (l.0, l.1));
     Ok(links)
 }
 

@@ -96,7 +96,9 @@ class Audit:
     self_links : int
         Units linked to themselves.
     density : float
-        Share of ordered pairs of distinct units that are linked.
+        Share of ordered pairs of distinct units that are linked (the
+        density warning needs more than two units: with two, one link is
+        already everything).
     duplicate_locations : int or None
         Units sharing their location with another, where the builder knew.
     findings : tuple of Finding

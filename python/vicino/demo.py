@@ -249,24 +249,18 @@ def repair_islets(queen, shapes: pd.Series):
     return linked, linked.connect_components(shapes)
 
 
-def _added_pairs(before, after, step: str, shapes: pd.Series) -> pd.DataFrame:
+def _added_pairs(before, after, step: str) -> pd.DataFrame:
     """The pairs of districts that a repair step linked, each pair once (a district outside the
-    largest group first), with the distance between their centroids."""
-    import shapely
-
+    largest group first), with the distance between their centroids (as the repair found it)."""
     edges = (after - before).to_edges()  # the links of `after` that `before` lacks
+    edges = edges.merge(after.to_edges()[["focal", "neighbor", "distance"]], on=["focal", "neighbor"])
     outside = before.audit().components.labels.ne(0)  # group 0 is the largest
     ahead = outside[edges["focal"]].to_numpy(), outside[edges["neighbor"]].to_numpy()
     at = after.ids.get_indexer
     first = at(edges["focal"]) < at(edges["neighbor"])
     edges = edges[(ahead[0] & ~ahead[1]) | ((ahead[0] == ahead[1]) & first)]
-    # the districts carry the survey grid as their precision, and shapely would round the
-    # centroids to it: drop it first, so the centroids are the ones the repair used
-    centre = shapely.centroid(shapely.set_precision(shapes.to_numpy(), 0.0))
-    where = shapes.index.get_indexer
-    distance = shapely.distance(centre[where(edges["focal"])], centre[where(edges["neighbor"])])
     return pd.DataFrame({"step": step, "district": edges["focal"].to_numpy(),
-                         "linked_to": edges["neighbor"].to_numpy(), "distance_km": distance.round(1)})
+                         "linked_to": edges["neighbor"].to_numpy(), "distance_km": edges["distance"].to_numpy().round(1)})
 
 
 def _pairs_text(pairs: pd.DataFrame) -> str:
@@ -294,8 +288,8 @@ def _repair_section(places: pd.DataFrame, queen, shapes: pd.Series):
     print()
     print(before)
     linked, repaired = repair_islets(queen, shapes)
-    first = _added_pairs(queen, linked, "connect_islands", shapes)
-    second = _added_pairs(linked, repaired, "connect_components", shapes)
+    first = _added_pairs(queen, linked, "connect_islands")
+    second = _added_pairs(linked, repaired, "connect_components")
     middle = linked.audit()
     print()
     print(_fill(

@@ -457,7 +457,15 @@ class Weights:
         out, source, added = call(fn, self._csr(), np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
                                   metric, *params.values(), weight, ids=self._ids)
         step = Step(step_name, {**params, "metric": metric, "weight": weight, "links_added": len(added)})
-        return self._rebuild(out, step, source=source)
+        repaired = self._rebuild(out, step, source=source)
+        # the new entries and the core's list of added links are both in (row, column) order
+        new = np.asarray(source) < 0
+        links = dict(repaired._links)
+        distance = links.get("distance", np.full(len(new), np.nan)).copy()
+        distance[new] = [d for _, _, d in added]
+        links["distance"] = distance
+        return Weights(repaired._indptr, repaired._indices, repaired._data, repaired._ids, repaired._recipe,
+                       links=links, units=repaired._units, duplicates=repaired._duplicates)
 
     def connect_islands(self, locations, k: int = 1, *, metric: str = "euclidean", weight: float = 1.0) -> "Weights":
         """Link each island to its ``k`` nearest units by location.
@@ -469,8 +477,11 @@ class Weights:
         whenever i neighbours j) each new link is added both ways, so they
         stay symmetric. Ties go to the unit that
         comes first. Repair before standardizing. The step is recorded in
-        ``recipe`` with the number of links added; in ``to_edges()`` the
-        builder's facts of the new links (distance, border length) are NaN.
+        ``recipe`` with the number of links added. In ``to_edges()`` a new
+        link's ``distance`` is the distance between the two locations (in
+        the repair's metric: coordinate units, or km for great circle); other
+        facts of the builder (such as ``border_length``) are NaN for it, and
+        old links without a distance have NaN there.
         """
         k = whole_number(k, "k", minimum=1)
         return self._repair(_core.connect_islands, locations, metric, weight, "connect_islands", {"k": k})

@@ -844,3 +844,20 @@ def test_large_matrix_graph_operations_match_scipy():
     assert a.zero_columns.tolist() == np.flatnonzero(np.bincount(m.indices, minlength=n) == 0).tolist()  # reference: scipy column counts
     assert a.one_way_links == len(pairs_of(m) - pairs_of(m.T))  # reference: python sets of scipy pairs (W_ij > 0, W_ji == 0)
     assert a.max_asymmetry[0] == abs(sp.csr_array(m - m.T)).max()  # reference: scipy max |W - W.T|
+
+
+def test_repair_links_carry_their_distance():
+    # four units on a line at x = 0, 1, 2, 10; 0 - 1 linked, 2 and 3 islands
+    xy = np.array([[0.0, 0.0], [1.0, 0.0], [2.0, 0.0], [10.0, 0.0]])
+    m = np.zeros((4, 4))
+    m[0, 1] = m[1, 0] = 1.0
+    fixed = vicino.from_matrix(m, ids=list("abcd")).connect_islands(xy)
+    edges = fixed.to_edges().set_index(["focal", "neighbor"])["distance"]
+    for (i, j), d in edges.items():
+        a, b = "abcd".index(i), "abcd".index(j)
+        if m[a, b] > 0:
+            assert np.isnan(d)  # the given matrix knew no distances
+        else:
+            assert d == pytest.approx(np.hypot(*(xy[a] - xy[b])))  # reference: numpy Euclidean distance
+    # reference: by hand, c's nearest is b (distance 1) and d's nearest is c (distance 8)
+    assert set(edges.index) - {("a", "b"), ("b", "a")} == {("b", "c"), ("c", "b"), ("c", "d"), ("d", "c")}

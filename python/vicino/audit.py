@@ -198,14 +198,13 @@ class Audit:
                 "aggregate them."))
         origin = self._origin
         if origin is not None and origin.action == "from_matrix":
-            if origin.params.get("network"):
-                yield Finding("warning", "network", (
-                    "built from a network: the network must be exogenous to the outcome (not shaped by it), "
-                    "otherwise the estimated spatial effects are biased. Argue this, or use geographic weights."))
-            else:
-                yield Finding("note", "network", (
-                    "built from a given matrix: if it encodes a network (trade, migration, commuting, "
-                    "contacts), that network must be exogenous to the outcome."))
+            network = bool(origin.params.get("network"))
+            yield Finding("warning" if network else "note", "network", (
+                "built from a network: the network must be exogenous to the outcome (not shaped by it), "
+                "otherwise the estimated spatial effects are biased. Argue this, or use geographic weights."
+                if network else
+                "built from a given matrix: if it encodes a network (trade, migration, commuting, "
+                "contacts), that network must be exogenous to the outcome."))
 
     # ---- access and display ----------------------------------------------
     @property

@@ -260,8 +260,8 @@ def unit_locations(locations, ids: pd.Index):
     if _holds_polygons(locations):
         from . import _core
 
-        buffers, units, _ = as_polygons(locations, ids=None)
-        geoms = _geometry_values(locations)[0]
+        geoms, index = _geometry_values(locations)
+        buffers, units, _ = as_polygons(geoms, ids=index)
         xy = _core.centroids(buffers).reshape(-1, 2)
     else:
         xy, units = as_points(locations)

@@ -299,16 +299,20 @@ class Weights:
         return plot_links(self, locations, ax=ax)
 
     # ---- algebra -------------------------------------------------------
-    def _rebuild(self, csr, step: Step, *, source=None, ids=None, keep=None, duplicates="same") -> "Weights":
+    def _rebuild(self, csr, step: Step, *, source=None, ids=None, keep=None, duplicates="same",
+                 new_distances=None) -> "Weights":
         """New weights from core buffers. ``source`` maps each new entry to the entry it came
-        from (-1: new), carrying per-link facts; without it they are dropped. ``keep``
-        (positions) selects the per-unit facts."""
+        from (-1: new), carrying per-link facts (NaN for new entries); without it they are
+        dropped. ``new_distances`` (one per new entry, in entry order) fills the new entries'
+        ``distance``. ``keep`` (positions) selects the per-unit facts."""
         indptr, indices, data = csr
         links = None
-        if source is not None and self._links:
+        if source is not None:
             src = np.asarray(source)
             links = {k: np.where(src >= 0, v[np.maximum(src, 0)], np.nan) if len(v) else np.full(len(src), np.nan)
                      for k, v in self._links.items()}
+            if new_distances is not None:
+                links.setdefault("distance", np.full(len(src), np.nan))[src < 0] = new_distances
         units = self._units if keep is None else {k: v[keep] for k, v in self._units.items()}
         dup = self._duplicates if duplicates == "same" else duplicates
         return Weights(indptr, indices, data, self._ids if ids is None else ids, self._recipe + (step,),
@@ -457,15 +461,8 @@ class Weights:
         out, source, added = call(fn, self._csr(), np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
                                   metric, *params.values(), weight, ids=self._ids)
         step = Step(step_name, {**params, "metric": metric, "weight": weight, "links_added": len(added)})
-        repaired = self._rebuild(out, step, source=source)
         # the new entries and the core's list of added links are both in (row, column) order
-        new = np.asarray(source) < 0
-        links = dict(repaired._links)
-        distance = links.get("distance", np.full(len(new), np.nan)).copy()
-        distance[new] = [d for _, _, d in added]
-        links["distance"] = distance
-        return Weights(repaired._indptr, repaired._indices, repaired._data, repaired._ids, repaired._recipe,
-                       links=links, units=repaired._units, duplicates=repaired._duplicates)
+        return self._rebuild(out, step, source=source, new_distances=[d for _, _, d in added])
 
     def connect_islands(self, locations, k: int = 1, *, metric: str = "euclidean", weight: float = 1.0) -> "Weights":
         """Link each island to its ``k`` nearest units by location.

@@ -239,8 +239,7 @@ impl<'a> CsrRef<'a> {
         t.indptr == self.indptr && t.indices == self.indices && t.data == self.data
     }
 
-    /// The weight w_ji stored for the entry (i, j), if any: a binary search
-    /// in row j.
+    /// The weight w_ij, if the link i -> j is stored: a binary search in row i.
     #[inline]
     pub fn get(&self, i: usize, j: usize) -> Option<f64> {
         let (c, v) = self.row(i);

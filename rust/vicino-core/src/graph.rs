@@ -397,6 +397,9 @@ pub fn add_links(w: CsrRef<'_>, mut links: Vec<(usize, usize, f64)>) -> Result<(
         return Ok((w.to_owned(), (0..w.nnz() as i64).collect()));
     }
     links.sort_unstable_by_key(|&(i, j, _)| (i, j));
+    if let Some(p) = links.windows(2).find(|p| (p[0].0, p[0].1) == (p[1].0, p[1].1)) {
+        return Err(Error::LinkExists { row: p[0].0, col: p[0].1 });
+    }
     let mut indptr = Vec::with_capacity(n + 1);
     indptr.push(0i64);
     let mut indices = Vec::with_capacity(w.nnz() + links.len());
@@ -429,9 +432,6 @@ pub fn add_links(w: CsrRef<'_>, mut links: Vec<(usize, usize, f64)>) -> Result<(
         });
         if let Some(j) = clash {
             return Err(Error::LinkExists { row: i, col: j });
-        }
-        if add.windows(2).any(|p| p[0].1 == p[1].1) {
-            return Err(Error::LinkExists { row: i, col: add.windows(2).find(|p| p[0].1 == p[1].1).map_or(0, |p| p[0].1) });
         }
         indptr.push(indices.len() as i64);
     }

@@ -12,6 +12,9 @@ use crate::neighbors::{nearest_among, Metric};
 /// canonical coordinates and which units are located; other coordinates
 /// are checked as the metric requires.
 fn locations(xy: &[f64], n: usize, metric: Metric) -> Result<(Vec<f64>, Vec<bool>)> {
+    if n == 0 {
+        return Err(Error::Empty);
+    }
     if xy.len() != 2 * n {
         return Err(Error::LengthMismatch { what: "the locations (as x, y pairs)", expected: n, got: xy.len() / 2 });
     }
@@ -21,9 +24,6 @@ fn locations(xy: &[f64], n: usize, metric: Metric) -> Result<(Vec<f64>, Vec<bool
         .zip(&located)
         .flat_map(|(p, &ok)| if ok { [p[0], p[1]] } else { [0.0, 0.0] })
         .collect();
-    if n == 0 {
-        return Err(Error::Empty);
-    }
     metric.check(&filled)?;
     Ok((metric.canonical(&filled).into_owned(), located))
 }

@@ -24,7 +24,9 @@ def examples(items: Sequence, limit: int = SHOW) -> str:
 def whole_number(value, name: str, *, minimum: int | None = None) -> int:
     """Check that ``value`` is an integer (not a bool or float) and return it."""
     if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
-        raise InvalidParameterTypeError(f"{name} must be a whole number (int), got {value!r} of type {type(value).__name__}")
+        raise InvalidParameterTypeError(
+            f"{name} must be a whole number (int), got {value!r} of type {type(value).__name__}"
+        )
     if not isinstance(value, numbers.Integral):
         raise InvalidParameterError(f"{name} must be a whole number (int), got {value!r}")
     value = int(value)

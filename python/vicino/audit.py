@@ -136,20 +136,30 @@ class Audit:
     def _checks(self, ids, counts, in_counts):
         n = self.n
         if len(self.islands):
-            yield Finding("problem", "islands", (
-                f"{len(self.islands)} unit(s) have no neighbours: ids {examples(self.islands)}. Their lag is 0, "
-                "row standardization and most models cannot use them. Link them with "
-                "connect_islands(locations), remove them with drop_islands(), or choose weights that reach them "
-                "(k_nearest always does)."))
+            yield Finding(
+                "problem",
+                "islands",
+                (
+                    f"{len(self.islands)} unit(s) have no neighbours: ids {examples(self.islands)}. Their lag is 0, "
+                    "row standardization and most models cannot use them. Link them with "
+                    "connect_islands(locations), remove them with drop_islands(), or choose weights that reach them "
+                    "(k_nearest always does)."
+                ),
+            )
         else:
             yield Finding("ok", "islands", "every unit has at least one neighbour")
         comps = self.components
         if comps.count > 1:
             sizes = ", ".join(f"{s:,}" for s in comps.sizes[:6]) + (", ..." if comps.count > 6 else "")
-            yield Finding("warning", "components", (
-                f"the links split the units into {comps.count} separate groups (sizes {sizes}); no spatial "
-                "effect can pass between groups. connect_components(locations) links each smaller group to "
-                "the largest; or analyse the groups separately."))
+            yield Finding(
+                "warning",
+                "components",
+                (
+                    f"the links split the units into {comps.count} separate groups (sizes {sizes}); no spatial "
+                    "effect can pass between groups. connect_components(locations) links each smaller group to "
+                    "the largest; or analyse the groups separately."
+                ),
+            )
         else:
             yield Finding("ok", "components", "all units are connected in one group")
         if self.symmetric:
@@ -160,51 +170,86 @@ class Audit:
                 head = f"{self.one_way_links:,} link(s) run one way only"
             else:
                 head = "every link runs both ways but the weights differ (as after row standardization)"
-            yield Finding("note", "symmetry", (
-                f"{head}; the largest |w_ij - w_ji| is {value:.4g}, between ids {a!r} and {b!r}. Many "
-                "estimators accept asymmetric weights; use symmetrize() if yours needs symmetric ones."))
+            yield Finding(
+                "note",
+                "symmetry",
+                (
+                    f"{head}; the largest |w_ij - w_ji| is {value:.4g}, between ids {a!r} and {b!r}. Many "
+                    "estimators accept asymmetric weights; use symmetrize() if yours needs symmetric ones."
+                ),
+            )
         hidden = (in_counts == 0) & (counts > 0)
         if hidden.any():
-            yield Finding("note", "zero columns", (
-                f"{int(hidden.sum())} unit(s) with neighbours are nobody's neighbour (zero columns): ids "
-                f"{examples(ids[hidden])}. Their values enter no lag; check that this is intended."))
+            yield Finding(
+                "note",
+                "zero columns",
+                (
+                    f"{int(hidden.sum())} unit(s) with neighbours are nobody's neighbour (zero columns): ids "
+                    f"{examples(ids[hidden])}. Their values enter no lag; check that this is intended."
+                ),
+            )
         else:
             yield Finding("ok", "zero columns", "every unit with neighbours is also someone's neighbour")
         if self.self_links:
-            yield Finding("warning", "self-links", (
-                f"{self.self_links} unit(s) are linked to themselves (w_ii > 0). Moran's I and the usual "
-                "models assume a zero diagonal; rebuild the weights without the diagonal."))
+            yield Finding(
+                "warning",
+                "self-links",
+                (
+                    f"{self.self_links} unit(s) are linked to themselves (w_ii > 0). Moran's I and the usual "
+                    "models assume a zero diagonal; rebuild the weights without the diagonal."
+                ),
+            )
         else:
             yield Finding("ok", "self-links", "no unit is linked to itself")
         if n > 2 and self.density > DENSE_SHARE:
-            yield Finding("warning", "density", (
-                f"each unit neighbours {100 * self.density:.0f}% of all others on average. Such matrices are "
-                "heavy to store and use, and add little: in autoregressive models the lag of a lag already "
-                "connects everyone, so a sparse matrix suffices. Use fewer neighbours or a shorter distance."))
+            yield Finding(
+                "warning",
+                "density",
+                (
+                    f"each unit neighbours {100 * self.density:.0f}% of all others on average. Such matrices are "
+                    "heavy to store and use, and add little: in autoregressive models the lag of a lag already "
+                    "connects everyone, so a sparse matrix suffices. Use fewer neighbours or a shorter distance."
+                ),
+            )
         else:
             yield Finding("ok", "density", f"{100 * self.density:.3g}% of all pairs are linked")
         median, top = float(np.median(counts)), int(counts.max())
         if median > 0 and top > UNEVEN_RATIO * median and top - median >= UNEVEN_MIN_GAP:
-            yield Finding("warning", "uneven counts", (
-                f"counts range from {int(counts.min())} to {top} (median {median:g}). Units with many "
-                "neighbours get smoothed lags and units with few noisy ones; look at the units with the "
-                "most neighbours, or use k_nearest for equal counts."))
+            yield Finding(
+                "warning",
+                "uneven counts",
+                (
+                    f"counts range from {int(counts.min())} to {top} (median {median:g}). Units with many "
+                    "neighbours get smoothed lags and units with few noisy ones; look at the units with the "
+                    "most neighbours, or use k_nearest for equal counts."
+                ),
+            )
         else:
             yield Finding("ok", "uneven counts", f"counts range from {int(counts.min())} to {top} (median {median:g})")
         if self.duplicate_locations:
-            yield Finding("warning", "duplicate locations", (
-                f"{self.duplicate_locations} unit(s) share their location with another and are at distance 0; "
-                "check whether they were geocoded to a common point (a town centre, a postcode), or "
-                "aggregate them."))
+            yield Finding(
+                "warning",
+                "duplicate locations",
+                (
+                    f"{self.duplicate_locations} unit(s) share their location with another and are at distance 0; "
+                    "check whether they were geocoded to a common point (a town centre, a postcode), or "
+                    "aggregate them."
+                ),
+            )
         origin = self._origin
         if origin is not None and origin.action == "from_matrix":
             network = bool(origin.params.get("network"))
-            yield Finding("warning" if network else "note", "network", (
-                "built from a network: the network must be exogenous to the outcome (not shaped by it), "
-                "otherwise the estimated spatial effects are biased. Argue this, or use geographic weights."
-                if network else
-                "built from a given matrix: if it encodes a network (trade, migration, commuting, "
-                "contacts), that network must be exogenous to the outcome."))
+            yield Finding(
+                "warning" if network else "note",
+                "network",
+                (
+                    "built from a network: the network must be exogenous to the outcome (not shaped by it), "
+                    "otherwise the estimated spatial effects are biased. Argue this, or use geographic weights."
+                    if network
+                    else "built from a given matrix: if it encodes a network (trade, migration, commuting, "
+                    "contacts), that network must be exogenous to the outcome."
+                ),
+            )
 
     # ---- access and display ----------------------------------------------
     @property
@@ -218,8 +263,10 @@ class Audit:
 
     def _head(self) -> str:
         s = self.summary
-        return (f"{self.n:,} units, {self.links:,} links; neighbours min {int(s['min'])}, median {s['median']:g}, "
-                f"mean {s['mean']:.2f}, max {int(s['max'])}")
+        return (
+            f"{self.n:,} units, {self.links:,} links; neighbours min {int(s['min'])}, median {s['median']:g}, "
+            f"mean {s['mean']:.2f}, max {int(s['max'])}"
+        )
 
     def __repr__(self) -> str:
         import textwrap

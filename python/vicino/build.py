@@ -187,7 +187,9 @@ def contiguity(polygons, rule: str = "queen", *, tolerance: float = 0.0, weight:
     choice(weight, "contiguity weight", CONTIGUITY_WEIGHTS)
     tolerance = real_number(tolerance, "tolerance")
     if weight == "border_length" and rule != "rook":
-        raise InvalidParameterError('weight="border_length" needs rule="rook": queen links at a single point have no length')
+        raise InvalidParameterError(
+            'weight="border_length" needs rule="rook": queen links at a single point have no length'
+        )
     buffers, units, empty = as_polygons(polygons, ids=ids)
     (indptr, indices, lengths), perimeter, _ = call(_core.contiguity, buffers, rule, tolerance, "euclidean", ids=units)
     _warn_empty(empty, units)
@@ -195,12 +197,26 @@ def contiguity(polygons, rule: str = "queen", *, tolerance: float = 0.0, weight:
     params = {"rule": rule, "tolerance": tolerance}
     if weight != "binary":
         params["weight"] = weight
-    return Weights(indptr, indices, data, units, (Step("contiguity", params),),
-                   links={"border_length": lengths}, units={"perimeter": perimeter})
+    return Weights(
+        indptr,
+        indices,
+        data,
+        units,
+        (Step("contiguity", params),),
+        links={"border_length": lengths},
+        units={"perimeter": perimeter},
+    )
 
 
-def cliff_ord(polygons, *, border_power: float = 1.0, distance_power: float = 1.0, metric: str = "euclidean",
-              tolerance: float = 0.0, ids=None) -> Weights:
+def cliff_ord(
+    polygons,
+    *,
+    border_power: float = 1.0,
+    distance_power: float = 1.0,
+    metric: str = "euclidean",
+    tolerance: float = 0.0,
+    ids=None,
+) -> Weights:
     """Cliff-Ord weights: w_ij = b_ij^a / d_ij^b for rook neighbours.
 
     After Cliff and Ord (1981): b_ij is the share of unit i's perimeter that
@@ -223,6 +239,8 @@ def cliff_ord(polygons, *, border_power: float = 1.0, distance_power: float = 1.
     buffers, units, empty = as_polygons(polygons, ids=ids)
     (indptr, indices, data), perimeter, _ = call(_core.cliff_ord, buffers, a, b, tolerance, metric, ids=units)
     _warn_empty(empty, units)
-    step = Step("cliff_ord", {"border_power": a, "distance_power": b, "metric": metric, "tolerance": tolerance,
-                              "symmetric": False})
+    step = Step(
+        "cliff_ord",
+        {"border_power": a, "distance_power": b, "metric": metric, "tolerance": tolerance, "symmetric": False},
+    )
     return Weights(indptr, indices, data, units, (step,), units={"perimeter": perimeter})

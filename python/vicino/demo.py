@@ -32,9 +32,41 @@ from .audit import LEVELS
 from .build import cliff_ord, contiguity, k_nearest, within_distance
 from .stats import moran
 
-_FIRST = ["Ost", "Bran", "Hal", "Wend", "Kel", "Mor", "Tav", "Lis", "Dun", "Fen", "Gar", "Rook", "Sel", "Thir", "Ush", "Vell"]
+_FIRST = [
+    "Ost",
+    "Bran",
+    "Hal",
+    "Wend",
+    "Kel",
+    "Mor",
+    "Tav",
+    "Lis",
+    "Dun",
+    "Fen",
+    "Gar",
+    "Rook",
+    "Sel",
+    "Thir",
+    "Ush",
+    "Vell",
+]
 _MIDDLE = ["", "an", "el", "or"]
-_LAST = ["mere", "ford", "wick", "holm", "stead", "by", "ness", "combe", "thorpe", "ley", "brook", "garth", "wold", "haven"]
+_LAST = [
+    "mere",
+    "ford",
+    "wick",
+    "holm",
+    "stead",
+    "by",
+    "ness",
+    "combe",
+    "thorpe",
+    "ley",
+    "brook",
+    "garth",
+    "wold",
+    "haven",
+]
 
 CAUTIONS = (
     "Cautions: a small p-value says the pattern is unlikely under random placement of the values "
@@ -84,8 +116,13 @@ def settlements(seed: int = 7) -> pd.DataFrame:
     share = 35 + 0.25 * xs + 30 * hub + rng.normal(0, 5, len(xs))
     population = np.round(rng.lognormal(7, 0.8, len(xs))).astype(int)
     return pd.DataFrame(
-        {"region": region, "x": xs.round(3), "y": ys.round(3), "population": population,
-         "cistern_share": share.clip(0, 100).round(2)},
+        {
+            "region": region,
+            "x": xs.round(3),
+            "y": ys.round(3),
+            "population": population,
+            "cistern_share": share.clip(0, 100).round(2),
+        },
         index=pd.Index(names, name="settlement"),
     )
 
@@ -154,8 +191,9 @@ def districts(seed: int = 7, places: pd.DataFrame | None = None) -> pd.Series:
     # borders on the survey grid: the cells' corners are rounded first (a corner shared
     # by several cells is rounded alike in each), then clipped in grid precision
     grid = SURVEY_GRID_KM
-    shapes[vale] = shapely.intersection(shapely.set_precision(cells[order], grid), shapely.set_precision(coast, grid),
-                                        grid_size=grid)
+    shapes[vale] = shapely.intersection(
+        shapely.set_precision(cells[order], grid), shapely.set_precision(coast, grid), grid_size=grid
+    )
     shapes[~vale] = shapely.set_precision(shapely.buffer(points[~vale], ISLET_RADIUS_KM, quad_segs=8), grid)
     shapes = _polygonal(shapes)
     return pd.Series(shapes, index=places.index, name="district")
@@ -163,8 +201,17 @@ def districts(seed: int = 7, places: pd.DataFrame | None = None) -> pd.Series:
 
 def _counts_summary(weights: dict) -> pd.DataFrame:
     return pd.DataFrame(
-        [{"weights": name, "links": w.nnz, "min": int(w.counts.min()), "mean": round(float(w.counts.mean()), 2),
-          "max": int(w.counts.max()), "islands": len(w.islands)} for name, w in weights.items()]
+        [
+            {
+                "weights": name,
+                "links": w.nnz,
+                "min": int(w.counts.min()),
+                "mean": round(float(w.counts.mean()), 2),
+                "max": int(w.counts.max()),
+                "islands": len(w.islands),
+            }
+            for name, w in weights.items()
+        ]
     ).set_index("weights")
 
 
@@ -180,22 +227,31 @@ def _names(names, width: int = 78) -> str:
 def _district_section(places: pd.DataFrame, seed: int):
     """Contiguity of the districts: printed report, weights, and tables (None without shapely)."""
     try:
-        import shapely  # noqa: F401
+        import shapely
     except ImportError:
         print(NO_SHAPELY)
         return None
     shapes = districts(seed, places)
     built = {"queen": contiguity(shapes, "queen"), "rook": contiguity(shapes, "rook")}
-    counts = pd.DataFrame({"region": places["region"], "queen": built["queen"].counts,
-                           "rook": built["rook"].counts, "area_km2": shapely.area(shapes.to_numpy()).round(2)},
-                          index=places.index)
+    counts = pd.DataFrame(
+        {
+            "region": places["region"],
+            "queen": built["queen"].counts,
+            "rook": built["rook"].counts,
+            "area_km2": shapely.area(shapes.to_numpy()).round(2),
+        },
+        index=places.index,
+    )
     summary = _counts_summary(built)
     in_vale = int(places["region"].eq("Brannock Vale").sum())
-    print(_fill(
-        f"Districts of the vale: {in_vale} Voronoi cells of the settlements, clipped to the coast, "
-        f"borders on a {SURVEY_GRID_KM * 1000:.0f}\xa0m survey grid. Islets of the skerries: "
-        f"{len(places) - in_vale} discs of {ISLET_RADIUS_KM:g}\xa0km radius. Queen: districts sharing a "
-        "point of border; rook: sharing a stretch of border."))
+    print(
+        _fill(
+            f"Districts of the vale: {in_vale} Voronoi cells of the settlements, clipped to the coast, "
+            f"borders on a {SURVEY_GRID_KM * 1000:.0f}\xa0m survey grid. Islets of the skerries: "
+            f"{len(places) - in_vale} discs of {ISLET_RADIUS_KM:g}\xa0km radius. Queen: districts sharing a "
+            "point of border; rook: sharing a stretch of border."
+        )
+    )
     print()
     print(summary.to_string())
     corner = (built["queen"] - built["rook"]).nnz // 2  # links of queen that rook lacks, each pair both ways
@@ -210,8 +266,9 @@ def _district_section(places: pd.DataFrame, seed: int):
         parts = ", ".join(f"{count} in {region}" for region, count in where.items())
         under = "queen and rook" if same else rule
         print()
-        print(_fill(f"{len(islands)} districts touch no other, islands under {under} "
-                    f"({parts.replace(' ', chr(0xA0))}):"))
+        print(
+            _fill(f"{len(islands)} districts touch no other, islands under {under} ({parts.replace(' ', chr(0xA0))}):")
+        )
         print(_names(islands))
         print("  Their rows stay empty and their lag is 0.")
     print()
@@ -259,16 +316,24 @@ def _added_pairs(before, after, step: str) -> pd.DataFrame:
     at = after.ids.get_indexer
     first = at(edges["focal"]) < at(edges["neighbor"])
     edges = edges[(ahead[0] & ~ahead[1]) | ((ahead[0] == ahead[1]) & first)]
-    return pd.DataFrame({"step": step, "district": edges["focal"].to_numpy(),
-                         "linked_to": edges["neighbor"].to_numpy(), "distance_km": edges["distance"].to_numpy().round(1)})
+    return pd.DataFrame(
+        {
+            "step": step,
+            "district": edges["focal"].to_numpy(),
+            "linked_to": edges["neighbor"].to_numpy(),
+            "distance_km": edges["distance"].to_numpy().round(1),
+        }
+    )
 
 
 def _pairs_text(pairs: pd.DataFrame) -> str:
     if pairs.empty:
         return "  (none)"
     width = max(len(f"{a} - {b}") for a, b in zip(pairs["district"], pairs["linked_to"]))
-    return "\n".join(f"  {f'{a} - {b}':<{width}}  {d:5.1f} km"
-                     for a, b, d in zip(pairs["district"], pairs["linked_to"], pairs["distance_km"]))
+    return "\n".join(
+        f"  {f'{a} - {b}':<{width}}  {d:5.1f} km"
+        for a, b, d in zip(pairs["district"], pairs["linked_to"], pairs["distance_km"])
+    )
 
 
 def _sizes(report) -> str:
@@ -280,11 +345,17 @@ def _repair_section(places: pd.DataFrame, queen, shapes: pd.Series):
     skerries = set(places.index[places["region"] == "Tarrow Skerries"])
     before = queen.audit()
     alone = set(before.islands)
-    which = ("exactly the islets of the Tarrow\xa0Skerries" if alone == skerries
-             else f"{len(alone & skerries)} of them islets of the Tarrow\xa0Skerries")
-    print(_fill(
-        f"Queen contiguity leaves {len(before.islands)} islands ({which}) and splits the region into "
-        f"{before.components.count} groups (sizes {_sizes(before)}). Its audit in full:"))
+    which = (
+        "exactly the islets of the Tarrow\xa0Skerries"
+        if alone == skerries
+        else f"{len(alone & skerries)} of them islets of the Tarrow\xa0Skerries"
+    )
+    print(
+        _fill(
+            f"Queen contiguity leaves {len(before.islands)} islands ({which}) and splits the region into "
+            f"{before.components.count} groups (sizes {_sizes(before)}). Its audit in full:"
+        )
+    )
     print()
     print(before)
     linked, repaired = repair_islets(queen, shapes)
@@ -292,26 +363,41 @@ def _repair_section(places: pd.DataFrame, queen, shapes: pd.Series):
     second = _added_pairs(linked, repaired, "connect_components")
     middle = linked.audit()
     print()
-    print(_fill(
-        f"connect_islands(districts, k=1) links each island to the district with the nearest centroid "
-        f"({len(first)} pairs):"))
+    print(
+        _fill(
+            f"connect_islands(districts, k=1) links each island to the district with the nearest centroid "
+            f"({len(first)} pairs):"
+        )
+    )
     print(_pairs_text(first))
     among = first["district"].isin(skerries) & first["linked_to"].isin(skerries)
-    note = (" The nearest district of an islet is another islet, so the skerries still stand apart."
-            if among.all() and middle.components.count > 1 else "")
-    print(_fill(
-        f"Islands left: {len(middle.islands)}; groups: {middle.components.count} (sizes {_sizes(middle)})."
-        + note))
+    note = (
+        " The nearest district of an islet is another islet, so the skerries still stand apart."
+        if among.all() and middle.components.count > 1
+        else ""
+    )
+    print(
+        _fill(
+            f"Islands left: {len(middle.islands)}; groups: {middle.components.count} (sizes {_sizes(middle)})." + note
+        )
+    )
     if len(second):
         print()
-        print(_fill(
-            "connect_components(districts) then links each smaller group to the largest through its "
-            f"closest pair of districts ({len(second)} pairs, a ferry to the coast):"))
+        print(
+            _fill(
+                "connect_components(districts) then links each smaller group to the largest through its "
+                f"closest pair of districts ({len(second)} pairs, a ferry to the coast):"
+            )
+        )
         print(_pairs_text(second))
     after = repaired.audit()
     print()
-    print(_fill(f"Islands left: {len(after.islands)}; groups: {after.components.count}. "
-                "The audit of the repaired queen weights:"))
+    print(
+        _fill(
+            f"Islands left: {len(after.islands)}; groups: {after.components.count}. "
+            "The audit of the repaired queen weights:"
+        )
+    )
     print()
     print(after)
     print()
@@ -325,9 +411,11 @@ def _save_plots(out: Path, queen, repaired, shapes: pd.Series) -> list[str]:
         from matplotlib.figure import Figure
     except ImportError:
         return []
-    drawn = {"queen_counts.png": lambda ax: queen.plot_counts(ax=ax),
-             "queen_links.png": lambda ax: queen.plot_links(shapes, ax=ax),
-             "queen_repaired_links.png": lambda ax: repaired.plot_links(shapes, ax=ax)}
+    drawn = {
+        "queen_counts.png": lambda ax: queen.plot_counts(ax=ax),
+        "queen_links.png": lambda ax: queen.plot_links(shapes, ax=ax),
+        "queen_repaired_links.png": lambda ax: repaired.plot_links(shapes, ax=ax),
+    }
     for name, draw in drawn.items():
         fig = Figure(figsize=(8, 4.5))  # no pyplot: nothing opens a window or keeps the figure
         draw(fig.subplots())
@@ -385,17 +473,23 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
 
     print(_rule("3. Audit of every candidate"))
     audits = {name: w.audit() for name, w in candidates.items()}
-    print(_fill(
-        "w.audit() checks islands, connected groups, symmetry, zero columns, self-links, density and "
-        "uneven counts; each finding is a problem (fix it before use), a warning, a note (check that it "
-        "is intended) or ok. The findings of each candidate:"))
+    print(
+        _fill(
+            "w.audit() checks islands, connected groups, symmetry, zero columns, self-links, density and "
+            "uneven counts; each finding is a problem (fix it before use), a warning, a note (check that it "
+            "is intended) or ok. The findings of each candidate:"
+        )
+    )
     print()
     print(_audit_table(audits).to_string())
     print()
-    print(_fill(
-        "k-nearest links need not run both ways (one settlement may be among another's nearest but not "
-        "the reverse), hence their notes; Cliff-Ord weights are asymmetric by construction. Every "
-        "finding in full is in audit.csv; the queen weights are audited in full below."))
+    print(
+        _fill(
+            "k-nearest links need not run both ways (one settlement may be among another's nearest but not "
+            "the reverse), hence their notes; Cliff-Ord weights are asymmetric by construction. Every "
+            "finding in full is in audit.csv; the queen weights are audited in full below."
+        )
+    )
 
     print(_rule("4. Repairing the islets of the skerries"))
     repaired = None
@@ -420,9 +514,16 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     rows = []
     for name, w in standardized.items():
         r = moran(places["cistern_share"], w, permutations=permutations, seed=seed)
-        rows.append({"weights": name, "I": r.statistic, "E[I]": r.expected,
-                     "z (randomization)": r.randomization.z, "p (randomization)": r.randomization.p_value,
-                     "p (permutation)": r.permutation.p_value})
+        rows.append(
+            {
+                "weights": name,
+                "I": r.statistic,
+                "E[I]": r.expected,
+                "z (randomization)": r.randomization.z,
+                "p (randomization)": r.randomization.p_value,
+                "p (permutation)": r.permutation.p_value,
+            }
+        )
     table = pd.DataFrame(rows).set_index("weights")
     short = {"z (randomization)": "z (rand)", "p (randomization)": "p (rand)", "p (permutation)": "p (perm)"}
     print(table.rename(columns=short).to_string(float_format=lambda v: f"{v:.4g}"))
@@ -430,8 +531,12 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     print(f"({permutations} permutations: the smallest possible p is {1 / (permutations + 1):.4g})")
     if district is not None:
         print("queen, rook and Cliff-Ord: the districts, row-standardized, islands kept")
-        print(_fill("queen, repaired: queen with the islets linked in by assumption (section\xa04), "
-                    "row-standardized, no islands left"))
+        print(
+            _fill(
+                "queen, repaired: queen with the islets linked in by assumption (section\xa04), "
+                "row-standardized, no islands left"
+            )
+        )
 
     print(_rule("Reading the results"))
     print(_fill(CAUTIONS))

@@ -9,18 +9,18 @@ units carry ``positions`` (row numbers) and, where known, ``ids``.
 from __future__ import annotations
 
 __all__ = [
-    "VicinoError",
+    "ConvergenceError",
+    "DuplicateLocationWarning",
+    "IdError",
+    "InternalError",
     "InvalidInputError",
-    "InvalidTypeError",
+    "InvalidMatrixError",
     "InvalidParameterError",
     "InvalidParameterTypeError",
-    "IdError",
-    "IslandError",
-    "InvalidMatrixError",
+    "InvalidTypeError",
     "InvalidValuesError",
-    "ConvergenceError",
-    "InternalError",
-    "DuplicateLocationWarning",
+    "IslandError",
+    "VicinoError",
 ]
 
 

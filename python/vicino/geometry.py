@@ -68,7 +68,8 @@ def _numeric(block, what: str) -> np.ndarray:
         raise InvalidTypeError(f"{what} are booleans; coordinates must be numbers")
     if arr.dtype.kind in "US" or (
         arr.dtype.kind == "O"
-        and pd.api.types.infer_dtype(arr.ravel(), skipna=False) not in ("integer", "floating", "mixed-integer-float", "decimal")
+        and pd.api.types.infer_dtype(arr.ravel(), skipna=False)
+        not in ("integer", "floating", "mixed-integer-float", "decimal")
     ):
         found = "text" if arr.dtype.kind in "US" else pd.api.types.infer_dtype(arr.ravel(), skipna=False)
         raise InvalidTypeError(
@@ -273,7 +274,9 @@ def unit_locations(locations, ids: pd.Index):
             raise InvalidInputError(
                 f"{int(bad.sum())} location(s) have NaN or infinite coordinates: ids {examples(named)}; "
                 "give every unit a location, or drop those units first",
-                count=int(bad.sum()), positions=where[:10].tolist(), ids=list(named[:10]),
+                count=int(bad.sum()),
+                positions=where[:10].tolist(),
+                ids=list(named[:10]),
             )
     if len(units) != len(ids):
         raise InvalidInputError(

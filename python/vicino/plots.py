@@ -37,7 +37,8 @@ def _axes(ax):
 
 def plot_counts(weights, ax=None):
     """Bar chart of how many units have each neighbour count; the bar of
-    islands (0 neighbours) in rust, the median as a dotted line. Returns the Axes."""
+    islands (0 neighbours) in rust, the median as a dotted line. Returns the Axes.
+    """
     _pyplot()
     ax = _axes(ax)
     counts = np.diff(weights._indptr)
@@ -46,12 +47,25 @@ def plot_counts(weights, ax=None):
     ax.bar(values, units, width=0.8, color=colours, edgecolor="white", linewidth=0.6)
     median = float(np.median(counts))
     ax.axvline(median, color=INK, linestyle=":", linewidth=1.2)
-    ax.annotate(f"median {median:g}", xy=(median, ax.get_ylim()[1]), xytext=(4, -12),
-                textcoords="offset points", color=INK, fontsize=9)
+    ax.annotate(
+        f"median {median:g}",
+        xy=(median, ax.get_ylim()[1]),
+        xytext=(4, -12),
+        textcoords="offset points",
+        color=INK,
+        fontsize=9,
+    )
     if (values == 0).any():
         islands = int(units[values == 0][0])
-        ax.annotate(f"{islands} island(s)", xy=(0, islands), xytext=(0, 4), textcoords="offset points",
-                    ha="center", color=ISLAND, fontsize=9)
+        ax.annotate(
+            f"{islands} island(s)",
+            xy=(0, islands),
+            xytext=(0, 4),
+            textcoords="offset points",
+            ha="center",
+            color=ISLAND,
+            fontsize=9,
+        )
     ax.set_xlabel("neighbours per unit")
     ax.set_ylabel("units")
     ax.set_title(f"Neighbour counts of {weights.n:,} units", loc="left", fontsize=11)
@@ -76,7 +90,8 @@ def _boundaries(geoms):
 def plot_links(weights, locations, ax=None):
     """Links drawn as straight lines between unit centres (points, or polygon
     centroids) over the polygon boundaries; islands marked with rust rings
-    and units of smaller components in ochre. Returns the Axes."""
+    and units of smaller components in ochre. Returns the Axes.
+    """
     _pyplot()
     from matplotlib.collections import LineCollection
     from matplotlib.lines import Line2D
@@ -108,18 +123,38 @@ def plot_links(weights, locations, ax=None):
     size = 10 if weights.n <= 2000 else 2
     ax.scatter(xy[main, 0], xy[main, 1], s=size, color=INK, linewidths=0, zorder=3)
     ax.scatter(xy[small, 0], xy[small, 1], s=size * 1.8, color=SMALL, edgecolors=INK, linewidths=0.4, zorder=3)
-    ax.scatter(xy[island, 0], xy[island, 1], s=size * 6, facecolors="none", edgecolors=ISLAND,
-               linewidths=1.6, zorder=4)
+    ax.scatter(xy[island, 0], xy[island, 1], s=size * 6, facecolors="none", edgecolors=ISLAND, linewidths=1.6, zorder=4)
     ax.set_aspect("equal", adjustable="datalim")
     ax.autoscale_view()
-    handles = [Line2D([], [], color=LINK, label="link"), Line2D([], [], color=INK, marker="o", linestyle="",
-               markersize=4, label="unit")]
+    handles = [
+        Line2D([], [], color=LINK, label="link"),
+        Line2D([], [], color=INK, marker="o", linestyle="", markersize=4, label="unit"),
+    ]
     if small.any():
-        handles.append(Line2D([], [], color=SMALL, marker="o", linestyle="", markersize=5,
-                              label=f"outside the largest component ({int(small.sum())})"))
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color=SMALL,
+                marker="o",
+                linestyle="",
+                markersize=5,
+                label=f"outside the largest component ({int(small.sum())})",
+            )
+        )
     if island.any():
-        handles.append(Line2D([], [], color=ISLAND, marker="o", markerfacecolor="none", linestyle="",
-                              markersize=8, label=f"island ({int(island.sum())})"))
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color=ISLAND,
+                marker="o",
+                markerfacecolor="none",
+                linestyle="",
+                markersize=8,
+                label=f"island ({int(island.sum())})",
+            )
+        )
     ax.legend(handles=handles, loc="lower left", frameon=False, fontsize=8)
     ax.set_title(f"{weights.n:,} units, {len(pairs):,} linked pairs", loc="left", fontsize=11)
     ax.set_xticks([])

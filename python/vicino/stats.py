@@ -83,25 +83,45 @@ class MoranResult:
         """One row per assumption: statistic, expected value, variance, z and p-value."""
         rows = []
         for inf in (self.normality, self.randomization):
-            rows.append({"assumption": inf.assumption, "I": self.statistic, "expected": self.expected,
-                         "variance": inf.variance, "z": inf.z, "p_value": inf.p_value})
+            rows.append(
+                {
+                    "assumption": inf.assumption,
+                    "I": self.statistic,
+                    "expected": self.expected,
+                    "variance": inf.variance,
+                    "z": inf.z,
+                    "p_value": inf.p_value,
+                }
+            )
         if self.permutation is not None:
             p = self.permutation
-            rows.append({"assumption": f"permutation (R={p.permutations})", "I": self.statistic,
-                         "expected": p.mean, "variance": p.std**2, "z": p.z, "p_value": p.p_value})
+            rows.append(
+                {
+                    "assumption": f"permutation (R={p.permutations})",
+                    "I": self.statistic,
+                    "expected": p.mean,
+                    "variance": p.std**2,
+                    "z": p.z,
+                    "p_value": p.p_value,
+                }
+            )
         return pd.DataFrame(rows).set_index("assumption")
 
     def __str__(self) -> str:
-        lines = [f"Moran's I = {self.statistic:.6f}  (E[I] = {self.expected:.6f}, n = {self.n}, "
-                 f"alternative: {self.alternative})"]
+        lines = [
+            f"Moran's I = {self.statistic:.6f}  (E[I] = {self.expected:.6f}, n = {self.n}, "
+            f"alternative: {self.alternative})"
+        ]
         lines.append(self.table().to_string(float_format=lambda v: f"{v:.6g}"))
         lines.append(f"weights: {self.weights}")
         return "\n".join(lines)
 
     def _repr_html_(self) -> str:
-        head = (f"<p><strong>Moran's I = {self.statistic:.6f}</strong> (E[I] = {self.expected:.6f}, "
-                f"n = {self.n}, alternative: {html.escape(self.alternative)})<br>"
-                f"<small>weights: {html.escape(self.weights)}</small></p>")
+        head = (
+            f"<p><strong>Moran's I = {self.statistic:.6f}</strong> (E[I] = {self.expected:.6f}, "
+            f"n = {self.n}, alternative: {html.escape(self.alternative)})<br>"
+            f"<small>weights: {html.escape(self.weights)}</small></p>"
+        )
         return "<div>" + head + self.table().to_html(float_format=lambda v: f"{v:.6g}") + "</div>"
 
 
@@ -111,7 +131,9 @@ def _seed(seed) -> int:
     return whole_number(seed, "seed", minimum=0) % 2**64
 
 
-def moran(values, weights: Weights, *, permutations: int = 999, seed=None, alternative: str = "two-sided") -> MoranResult:
+def moran(
+    values, weights: Weights, *, permutations: int = 999, seed=None, alternative: str = "two-sided"
+) -> MoranResult:
     """Global Moran's I of one variable under one weights matrix.
 
     Parameters
@@ -156,7 +178,19 @@ def moran(values, weights: Weights, *, permutations: int = 999, seed=None, alter
     if permutations:
         draws = r["perm_draws"]
         draws.flags.writeable = False
-        perm = PermutationInference(permutations, seed, r["perm_extreme"], r["perm_p"], r["perm_mean"],
-                                    r["perm_std"], r["perm_z"], draws)
-    return MoranResult(stat, expected, r["n"], alternative, analytic("normality"), analytic("randomization"),
-                       perm, r["s0"], r["s1"], r["s2"], " -> ".join(str(s) for s in weights.recipe))
+        perm = PermutationInference(
+            permutations, seed, r["perm_extreme"], r["perm_p"], r["perm_mean"], r["perm_std"], r["perm_z"], draws
+        )
+    return MoranResult(
+        stat,
+        expected,
+        r["n"],
+        alternative,
+        analytic("normality"),
+        analytic("randomization"),
+        perm,
+        r["s0"],
+        r["s1"],
+        r["s2"],
+        " -> ".join(str(s) for s in weights.recipe),
+    )

@@ -1,13 +1,15 @@
 """The :class:`Weights` type: an immutable spatial weights matrix with ids
-and a record of how it was made."""
+and a record of how it was made.
+"""
 
 from __future__ import annotations
 
 import html
 import warnings
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import TYPE_CHECKING, Any, Mapping
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
@@ -73,10 +75,11 @@ class Weights:
         How the matrix was built and transformed.
     """
 
-    __slots__ = ("_indptr", "_indices", "_data", "_ids", "_recipe", "_links", "_duplicates", "_units")
+    __slots__ = ("_data", "_duplicates", "_ids", "_indices", "_indptr", "_links", "_recipe", "_units")
 
-    def __init__(self, indptr, indices, data, ids: pd.Index, recipe=(), *, links=None, units=None,
-                 duplicates: int | None = 0):
+    def __init__(
+        self, indptr, indices, data, ids: pd.Index, recipe=(), *, links=None, units=None, duplicates: int | None = 0
+    ):
         put = object.__setattr__
         put(self, "_indptr", _frozen(indptr, np.int64))
         put(self, "_indices", _frozen(indices, np.int64))
@@ -139,7 +142,8 @@ class Weights:
     @property
     def duplicate_locations(self) -> int | None:
         """How many units share their location with another (as found by the builder; None
-        when unknown, after units were dropped)."""
+        when unknown, after units were dropped).
+        """
         return self._duplicates
 
     @property
@@ -152,9 +156,17 @@ class Weights:
     def _csr(self):
         return self.n, self._indptr, self._indices, self._data
 
-    def _derive(self, data, step: Step) -> "Weights":
-        return Weights(self._indptr, self._indices, data, self._ids, self._recipe + (step,),
-                       links=self._links, units=self._units, duplicates=self._duplicates)
+    def _derive(self, data, step: Step) -> Weights:
+        return Weights(
+            self._indptr,
+            self._indices,
+            data,
+            self._ids,
+            self._recipe + (step,),
+            links=self._links,
+            units=self._units,
+            duplicates=self._duplicates,
+        )
 
     # ---- conversions -------------------------------------------------
     def to_scipy(self) -> sp.csr_array:
@@ -177,7 +189,8 @@ class Weights:
 
     def to_edges(self) -> pd.DataFrame:
         """One row per link: focal id, neighbour id, weight, and what the builder knew of the
-        link (``distance`` for point builders, ``border_length`` for polygon builders)."""
+        link (``distance`` for point builders, ``border_length`` for polygon builders).
+        """
         rows = np.repeat(np.arange(self.n), np.diff(self._indptr))
         out = {"focal": self._ids.take(rows), "neighbor": self._ids.take(self._indices), "weight": self._data}
         out.update(self._links)
@@ -193,7 +206,7 @@ class Weights:
         return pd.Series(self._data[a:b], index=self._ids.take(self._indices[a:b]), name=f"weights of {unit!r}")
 
     # ---- transformations ---------------------------------------------
-    def standardize(self, method: str, *, islands: str = "raise") -> "Weights":
+    def standardize(self, method: str, *, islands: str = "raise") -> Weights:
         """A standardized copy of the weights.
 
         Parameters
@@ -241,16 +254,22 @@ class Weights:
         if isinstance(values, (pd.Series, pd.DataFrame)):
             check_index(values.index, self._ids)
             if isinstance(values, pd.DataFrame):
-                bad = [c for c in values.columns if not (pd.api.types.is_numeric_dtype(values[c]) and not pd.api.types.is_bool_dtype(values[c]))]
+                bad = [
+                    c
+                    for c in values.columns
+                    if not (pd.api.types.is_numeric_dtype(values[c]) and not pd.api.types.is_bool_dtype(values[c]))
+                ]
                 if bad:
                     raise InvalidTypeError(f"columns {examples(bad)} are not numeric; select numeric columns first")
                 arr = values.to_numpy(dtype=np.float64)
+
                 def wrap(out, _v=values):
                     return pd.DataFrame(out, index=_v.index, columns=_v.columns)
             else:
                 if not pd.api.types.is_numeric_dtype(values) or pd.api.types.is_bool_dtype(values):
                     raise InvalidTypeError(f"values have dtype {values.dtype}; they must be numeric")
                 arr = values.to_numpy(dtype=np.float64)
+
                 def wrap(out, _v=values):
                     return pd.Series(out, index=_v.index, name=_v.name)
         else:
@@ -258,8 +277,10 @@ class Weights:
             if raw.dtype.kind not in "iuf":
                 raise InvalidTypeError(f"values have dtype {raw.dtype}; they must be numeric (int or float)")
             arr = raw.astype(np.float64, copy=False)
+
             def wrap(out):
                 return out
+
         if arr.ndim == 0 or arr.ndim > (2 if allow_2d else 1):
             shape = "(n,) or (n, m)" if allow_2d else "(n,)"
             raise InvalidValuesError(f"values must have shape {shape}, got {arr.shape}")
@@ -271,16 +292,19 @@ class Weights:
             raise InvalidValuesError(
                 f"{len(bad)} unit(s) have NaN or infinite values, ids {examples(self._ids[bad])}; "
                 "drop or impute them (and subset the weights) first",
-                count=len(bad), positions=bad[:10].tolist(), ids=list(self._ids[bad[:10]]),
+                count=len(bad),
+                positions=bad[:10].tolist(),
+                ids=list(self._ids[bad[:10]]),
             )
         return np.ascontiguousarray(arr), wrap
 
     # ---- health ------------------------------------------------------
-    def audit(self) -> "Audit":
+    def audit(self) -> Audit:
         """A health report: neighbour counts, islands, components, symmetry, zero
         columns, self-links, density, uneven counts, duplicate locations, and
         the exogeneity caution for weights from a network. Each finding has a
-        level (problem, warning, note, ok) and says what to do."""
+        level (problem, warning, note, ok) and says what to do.
+        """
         from .audit import Audit
 
         return Audit(self, call(_core.health, self._csr(), ids=self._ids))
@@ -293,32 +317,45 @@ class Weights:
 
     def plot_links(self, locations, ax=None):
         """Links drawn between unit centres over the polygons or points, islands and
-        smaller components marked; returns the matplotlib Axes."""
+        smaller components marked; returns the matplotlib Axes.
+        """
         from .plots import plot_links
 
         return plot_links(self, locations, ax=ax)
 
     # ---- algebra -------------------------------------------------------
-    def _rebuild(self, csr, step: Step, *, source=None, ids=None, keep=None, duplicates="same",
-                 new_distances=None) -> "Weights":
+    def _rebuild(
+        self, csr, step: Step, *, source=None, ids=None, keep=None, duplicates="same", new_distances=None
+    ) -> Weights:
         """New weights from core buffers. ``source`` maps each new entry to the entry it came
         from (-1: new), carrying per-link facts (NaN for new entries); without it they are
         dropped. ``new_distances`` (one per new entry, in entry order) fills the new entries'
-        ``distance``. ``keep`` (positions) selects the per-unit facts."""
+        ``distance``. ``keep`` (positions) selects the per-unit facts.
+        """
         indptr, indices, data = csr
         links = None
         if source is not None:
             src = np.asarray(source)
-            links = {k: np.where(src >= 0, v[np.maximum(src, 0)], np.nan) if len(v) else np.full(len(src), np.nan)
-                     for k, v in self._links.items()}
+            links = {
+                k: np.where(src >= 0, v[np.maximum(src, 0)], np.nan) if len(v) else np.full(len(src), np.nan)
+                for k, v in self._links.items()
+            }
             if new_distances is not None:
                 links.setdefault("distance", np.full(len(src), np.nan))[src < 0] = new_distances
         units = self._units if keep is None else {k: v[keep] for k, v in self._units.items()}
         dup = self._duplicates if duplicates == "same" else duplicates
-        return Weights(indptr, indices, data, self._ids if ids is None else ids, self._recipe + (step,),
-                       links=links, units=units, duplicates=dup)
+        return Weights(
+            indptr,
+            indices,
+            data,
+            self._ids if ids is None else ids,
+            self._recipe + (step,),
+            links=links,
+            units=units,
+            duplicates=dup,
+        )
 
-    def symmetrize(self, how: str = "union") -> "Weights":
+    def symmetrize(self, how: str = "union") -> Weights:
         """A symmetric copy, from w_ij and w_ji (a missing link weighs 0).
 
         ``union``: max(w_ij, w_ji), a link in either direction makes a link
@@ -331,19 +368,20 @@ class Weights:
         out = call(_core.symmetrize, self._csr(), how, ids=self._ids)
         return self._rebuild(out, Step("symmetrize", {"how": how}))
 
-    def order(self, k: int, *, cumulative: bool = False) -> "Weights":
+    def order(self, k: int, *, cumulative: bool = False) -> Weights:
         """Binary weights of k-step neighbours: units exactly ``k`` links away
         (shortest path of k links along the links' direction), or 1 to ``k``
         links away when ``cumulative``. A unit is never its own k-step
         neighbour. ``order(1)`` is the binary form of the weights (less any
-        self-links)."""
+        self-links).
+        """
         k = whole_number(k, "k", minimum=1)
         if not isinstance(cumulative, (bool, np.bool_)):
             raise InvalidParameterTypeError(f"cumulative must be True or False, got {cumulative!r}")
         out = call(_core.order, self._csr(), k, bool(cumulative), ids=self._ids)
         return self._rebuild(out, Step("order", {"k": k, "cumulative": bool(cumulative)}))
 
-    def _combine(self, other, op: str, symbol: str) -> "Weights":
+    def _combine(self, other, op: str, symbol: str) -> Weights:
         if not isinstance(other, Weights):
             return NotImplemented
         if not self._ids.equals(other._ids):
@@ -382,7 +420,7 @@ class Weights:
             raise IdError(f"{what} names {len(dup)} id(s) more than once: {examples(dup)}; name each unit once")
         return pos.astype(np.int64)
 
-    def _select(self, keep: np.ndarray, step: Step) -> "Weights":
+    def _select(self, keep: np.ndarray, step: Step) -> Weights:
         if len(keep) == 0:
             raise IdError("no unit would remain; weights need at least one unit")
         out, source = call(_core.select, self._csr(), keep, ids=self._ids)
@@ -390,32 +428,36 @@ class Weights:
         if scaled and len(keep) < self.n and len(source) < np.diff(self._indptr)[keep].sum():
             warnings.warn(
                 f"these weights were standardized ({scaled}) and some kept units lost links to removed "
-                "units, so they are no longer standardized: standardize again", UserWarning, stacklevel=3,
+                "units, so they are no longer standardized: standardize again",
+                UserWarning,
+                stacklevel=3,
             )
         dup = "same" if len(keep) == self.n else None
         return self._rebuild(out, step, source=source, ids=self._ids.take(keep), keep=keep, duplicates=dup)
 
-    def subset(self, ids) -> "Weights":
+    def subset(self, ids) -> Weights:
         """The weights among the given units only, in the given order; links to other units are dropped
-        (units may become islands: audit() tells)."""
+        (units may become islands: audit() tells).
+        """
         keep = self._positions(ids, "subset")
         return self._select(keep, Step("subset", {"units": len(keep)}))
 
-    def drop(self, ids) -> "Weights":
+    def drop(self, ids) -> Weights:
         """The weights without the given units (and their links); the others keep their order."""
         gone = self._positions(ids, "drop")
         keep = np.setdiff1d(np.arange(self.n, dtype=np.int64), gone)
         return self._select(keep, Step("drop", {"units": len(gone)}))
 
-    def drop_islands(self) -> "Weights":
+    def drop_islands(self) -> Weights:
         """The weights without their islands (units without neighbours)."""
         keep = np.flatnonzero(np.diff(self._indptr) > 0).astype(np.int64)
         return self._select(keep, Step("drop_islands", {"units": self.n - len(keep)}))
 
-    def align(self, index) -> "Weights":
+    def align(self, index) -> Weights:
         """The same weights with units reordered to match ``index`` (a DataFrame's
         index, or any sequence of ids). It must hold exactly the weights' ids:
-        missing or extra ids are an error that lists examples."""
+        missing or extra ids are an error that lists examples.
+        """
         if isinstance(index, (pd.DataFrame, pd.Series)):
             index = index.index
         if isinstance(index, (str, bytes)) or np.ndim(index) != 1:
@@ -424,10 +466,16 @@ class Weights:
         if not target.is_unique:
             dup = target[target.duplicated()].unique()
             raise IdError(f"the index to align to repeats {len(dup)} id(s): {examples(dup)}; ids must be unique")
-        parts = id_differences(self._ids, target, missing="id(s) of the weights are not in the index",
-                               extra="id(s) of the index are not in the weights")
+        parts = id_differences(
+            self._ids,
+            target,
+            missing="id(s) of the weights are not in the index",
+            extra="id(s) of the index are not in the weights",
+        )
         if parts:
-            raise IdError("cannot align: " + "; ".join(parts) + ". Use subset(ids) or drop(ids) to match the data first")
+            raise IdError(
+                "cannot align: " + "; ".join(parts) + ". Use subset(ids) or drop(ids) to match the data first"
+            )
         if target.equals(self._ids):
             return self
         keep = self._ids.get_indexer(target).astype(np.int64)
@@ -444,7 +492,7 @@ class Weights:
                 return None  # binary from here on
         return None
 
-    def _repair(self, fn, locations, metric: str, weight, step_name: str, params: dict) -> "Weights":
+    def _repair(self, fn, locations, metric: str, weight, step_name: str, params: dict) -> Weights:
         from .geometry import unit_locations
 
         choice(metric, "metric", ("euclidean", "great_circle"))
@@ -458,13 +506,20 @@ class Weights:
                 "so that the new links are scaled like the others"
             )
         xy, _ = unit_locations(locations, self._ids)
-        out, source, added = call(fn, self._csr(), np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
-                                  metric, *params.values(), weight, ids=self._ids)
+        out, source, added = call(
+            fn,
+            self._csr(),
+            np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
+            metric,
+            *params.values(),
+            weight,
+            ids=self._ids,
+        )
         step = Step(step_name, {**params, "metric": metric, "weight": weight, "links_added": len(added)})
         # the new entries and the core's list of added links are both in (row, column) order
         return self._rebuild(out, step, source=source, new_distances=[d for _, _, d in added])
 
-    def connect_islands(self, locations, k: int = 1, *, metric: str = "euclidean", weight: float = 1.0) -> "Weights":
+    def connect_islands(self, locations, k: int = 1, *, metric: str = "euclidean", weight: float = 1.0) -> Weights:
         """Link each island to its ``k`` nearest units by location.
 
         ``locations``: the units' points (as :func:`vicino.k_nearest` takes
@@ -483,7 +538,7 @@ class Weights:
         k = whole_number(k, "k", minimum=1)
         return self._repair(_core.connect_islands, locations, metric, weight, "connect_islands", {"k": k})
 
-    def connect_components(self, locations, *, metric: str = "euclidean", weight: float = 1.0) -> "Weights":
+    def connect_components(self, locations, *, metric: str = "euclidean", weight: float = 1.0) -> Weights:
         """Link each smaller connected component to the largest, through the
         closest pair of units (one in each), so that the map is in one piece.
 

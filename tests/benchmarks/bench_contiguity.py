@@ -135,8 +135,12 @@ CHILD = textwrap.dedent(
 
 
 def child(mode: str, rule: str, n: int, reps: int, skip: bool):
-    out = subprocess.run([sys.executable, "-c", CHILD, mode, rule, str(n), str(reps), "1" if skip else "0"],
-                         capture_output=True, text=True, check=True)
+    out = subprocess.run(
+        [sys.executable, "-c", CHILD, mode, rule, str(n), str(reps), "1" if skip else "0"],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
@@ -153,10 +157,18 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
     ap.add_argument("--reps", type=int, default=3, help="runs per route (1 for n >= 10^6)")
-    ap.add_argument("--skip-rook-baseline-above", type=int, default=200_000, metavar="N",
-                    help="do not run the relate_pattern rook baseline above N units (it takes minutes at 10^6)")
+    ap.add_argument(
+        "--skip-rook-baseline-above",
+        type=int,
+        default=200_000,
+        metavar="N",
+        help="do not run the relate_pattern rook baseline above N units (it takes minutes at 10^6)",
+    )
     args = ap.parse_args()
-    print(f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}", flush=True)
+    print(
+        f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}",
+        flush=True,
+    )
     for n in args.sizes:
         reps = 1 if n >= 1_000_000 else args.reps
         for rule in ("queen", "rook"):
@@ -168,9 +180,11 @@ def main() -> None:
             print(row(f"{rule} core", n, tb, tc, mb, mc), flush=True)
             if rule == "queen":
                 print(row("conversion", n, None, tconv, None, child("mem3", rule, n, 1, skip)), flush=True)
-    print("ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
-          "that loads the inputs and runs that route once; core rows exclude the conversion (as_polygons): "
-          "their MB is a process that loads only the converted buffers")
+    print(
+        "ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
+        "that loads the inputs and runs that route once; core rows exclude the conversion (as_polygons): "
+        "their MB is a process that loads only the converted buffers"
+    )
 
 
 if __name__ == "__main__":

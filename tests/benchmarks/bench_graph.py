@@ -193,14 +193,17 @@ CORE = {"audit": "audit core", "order": "order(2) core", "islands": "islands cor
 
 
 def child(mode: str, step: str, n: int, reps: int):
-    out = subprocess.run([sys.executable, "-c", CHILD, mode, step, str(n), str(reps)],
-                         capture_output=True, text=True, check=True)
+    out = subprocess.run(
+        [sys.executable, "-c", CHILD, mode, step, str(n), str(reps)], capture_output=True, text=True, check=True
+    )
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
 def row(label: str, n: int, tb: float, tv: float, mb: dict, mv: dict, same: str) -> str:
-    return (f"{label:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}"
-            f"{mb['extra_mb']:>10.0f}{mv['extra_mb']:>11.0f}{same:>6}")
+    return (
+        f"{label:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}"
+        f"{mb['extra_mb']:>10.0f}{mv['extra_mb']:>11.0f}{same:>6}"
+    )
 
 
 def main() -> None:
@@ -208,8 +211,11 @@ def main() -> None:
     ap.add_argument("--sizes", type=int, nargs="+", default=[100_000, 1_000_000])
     ap.add_argument("--reps", type=int, default=3, help="runs per route, best kept")
     args = ap.parse_args()
-    print(f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}"
-          f"{'base +MB':>10}{'vicino +MB':>11}{'same':>6}", flush=True)
+    print(
+        f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}"
+        f"{'base +MB':>10}{'vicino +MB':>11}{'same':>6}",
+        flush=True,
+    )
     resets = set()
     for n in args.sizes:
         for step in ("audit", "order", "islands"):
@@ -219,14 +225,20 @@ def main() -> None:
             resets.update(m["reset"] for m in (mb, mv, mc))
             print(row(LABEL[step], n, tb, tv, mb, mv, "yes" if t["same"] else "no"), flush=True)
             print(row(CORE[step], n, tb, tc, mb, mc, "-"), flush=True)
-    print("ratio = baseline time / vicino time (higher is better); core rows: the vicino core call alone, "
-          "against the same baseline")
+    print(
+        "ratio = baseline time / vicino time (higher is better); core rows: the vicino core call alone, "
+        "against the same baseline"
+    )
     if resets == {True}:
-        print("MB = peak resident memory while the route runs in a fresh process holding the data (peak reset "
-              "after building it); +MB = that peak minus the resident memory just before the route")
+        print(
+            "MB = peak resident memory while the route runs in a fresh process holding the data (peak reset "
+            "after building it); +MB = that peak minus the resident memory just before the route"
+        )
     else:
-        print("MB = peak resident memory of a fresh process that builds the data and runs the route once (the "
-              "peak could not be reset after building); +MB = memory beyond the peak reached while building")
+        print(
+            "MB = peak resident memory of a fresh process that builds the data and runs the route once (the "
+            "peak could not be reset after building); +MB = memory beyond the peak reached while building"
+        )
 
 
 if __name__ == "__main__":

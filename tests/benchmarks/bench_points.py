@@ -86,8 +86,9 @@ LABEL = {"knn": "k_nearest", "lag": "lag", "moran": "moran 999 perm", "spectral"
 
 
 def child(mode: str, step: str, n: int, k: int, reps: int):
-    out = subprocess.run([sys.executable, "-c", CHILD, mode, step, str(n), str(k), str(reps)],
-                         capture_output=True, text=True, check=True)
+    out = subprocess.run(
+        [sys.executable, "-c", CHILD, mode, step, str(n), str(k), str(reps)], capture_output=True, text=True, check=True
+    )
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
@@ -99,15 +100,22 @@ def main() -> None:
     ap.add_argument("--k", type=int, default=8)
     args = ap.parse_args()
     plan = [(s, n) for n in args.sizes for s in ("knn", "lag", "spectral")] + [("moran", n) for n in args.moran_sizes]
-    print(f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}", flush=True)
+    print(
+        f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}",
+        flush=True,
+    )
     for step, n in plan:
         reps = args.reps * 10 if step == "lag" else (1 if step == "moran" and n >= 100_000 else args.reps)
         tb, tv = child("time", step, n, args.k, reps)
         mb, mv = child("mem0", step, n, args.k, 1), child("mem1", step, n, args.k, 1)
-        print(f"{LABEL[step]:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}",
-              flush=True)
-    print("ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
-          "that builds the inputs and runs that route once")
+        print(
+            f"{LABEL[step]:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}",
+            flush=True,
+        )
+    print(
+        "ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
+        "that builds the inputs and runs that route once"
+    )
 
 
 if __name__ == "__main__":

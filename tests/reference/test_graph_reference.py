@@ -30,10 +30,10 @@ import pandas as pd
 import pytest
 import scipy.sparse as sp
 import shapely
+from _shapes import shapely_queen, voronoi
 from shapely import box
 
 import vicino
-from _shapes import shapely_queen, voronoi
 
 R1_KM = 6371.0088  # IUGG mean Earth radius R1 (Moritz 2000, GRS80)
 
@@ -41,8 +41,9 @@ R1_KM = 6371.0088  # IUGG mean Earth radius R1 (Moritz 2000, GRS80)
 # ---------------------------------------------------------------------------
 # helpers: data and independent references
 # ---------------------------------------------------------------------------
-def random_matrix(n: int, p: float, seed: int, *, isolated: int = 0, sinks: int = 0, self_loops: int = 0,
-                  symmetric: bool = False) -> sp.csr_array:
+def random_matrix(
+    n: int, p: float, seed: int, *, isolated: int = 0, sinks: int = 0, self_loops: int = 0, symmetric: bool = False
+) -> sp.csr_array:
     """A seeded random weighted matrix (NumPy): links with probability p and weights in [0.5, 3),
     ``isolated`` units without links in or out, ``sinks`` units without outgoing links (empty
     rows, in-links kept), and ``self_loops`` units linked to themselves."""
@@ -55,8 +56,8 @@ def random_matrix(n: int, p: float, seed: int, *, isolated: int = 0, sinks: int 
     gone = pos[:isolated]
     a[gone, :] = 0.0
     a[:, gone] = 0.0
-    a[pos[isolated:isolated + sinks], :] = 0.0
-    loops = pos[isolated + sinks:isolated + sinks + self_loops]
+    a[pos[isolated : isolated + sinks], :] = 0.0
+    loops = pos[isolated + sinks : isolated + sinks + self_loops]
     a[loops, loops] = rng.uniform(0.5, 3.0, len(loops))
     return sp.csr_array(a)
 
@@ -103,7 +104,9 @@ def assert_components_match(w: vicino.Weights, partition) -> None:
     assert comps.count == len(ref)  # reference: networkx components
     np.testing.assert_array_equal(comps.sizes, sorted((len(c) for c in ref), reverse=True))  # reference: networkx
     # label 0 = largest, ties to the component holding the earliest unit
-    np.testing.assert_array_equal(lab, expected_labels(ref, w.n))  # reference: networkx partition, sorted by (-size, first position)
+    np.testing.assert_array_equal(
+        lab, expected_labels(ref, w.n)
+    )  # reference: networkx partition, sorted by (-size, first position)
 
 
 def graph_of_pairs(n: int, pairs, directed: bool = False):
@@ -129,8 +132,10 @@ def brute_distances(xy: np.ndarray) -> np.ndarray:
 def brute_haversine(lonlat: np.ndarray) -> np.ndarray:
     """All pairwise great-circle distances (km) by the haversine formula, R1."""
     lam, phi = np.radians(lonlat[:, 0]), np.radians(lonlat[:, 1])
-    h = (np.sin((phi[:, None] - phi[None, :]) / 2) ** 2
-         + np.cos(phi)[:, None] * np.cos(phi)[None, :] * np.sin((lam[:, None] - lam[None, :]) / 2) ** 2)
+    h = (
+        np.sin((phi[:, None] - phi[None, :]) / 2) ** 2
+        + np.cos(phi)[:, None] * np.cos(phi)[None, :] * np.sin((lam[:, None] - lam[None, :]) / 2) ** 2
+    )
     return 2 * R1_KM * np.arcsin(np.sqrt(np.clip(h, 0.0, 1.0)))
 
 
@@ -178,7 +183,9 @@ def is_symmetric(m) -> bool:
 # ---------------------------------------------------------------------------
 # 1. connected components
 # ---------------------------------------------------------------------------
-@pytest.mark.parametrize("n,p,seed,isolated", [(60, 0.02, 1, 5), (120, 0.012, 2, 10), (200, 0.006, 3, 20), (40, 0.0, 4, 0)])
+@pytest.mark.parametrize(
+    "n,p,seed,isolated", [(60, 0.02, 1, 5), (120, 0.012, 2, 10), (200, 0.006, 3, 20), (40, 0.0, 4, 0)]
+)
 def test_components_undirected_match_networkx(n, p, seed, isolated):
     m = random_matrix(n, p, seed, isolated=isolated, symmetric=True)
     w = vicino.from_matrix(m, ids=str_ids(n))
@@ -187,7 +194,9 @@ def test_components_undirected_match_networkx(n, p, seed, isolated):
     assert_components_match(w, ref)
 
 
-@pytest.mark.parametrize("n,p,seed,isolated,sinks", [(60, 0.015, 5, 4, 6), (150, 0.008, 6, 10, 15), (200, 0.005, 7, 5, 30)])
+@pytest.mark.parametrize(
+    "n,p,seed,isolated,sinks", [(60, 0.015, 5, 4, 6), (150, 0.008, 6, 10, 15), (200, 0.005, 7, 5, 30)]
+)
 def test_components_directed_are_weak_components(n, p, seed, isolated, sinks):
     m = random_matrix(n, p, seed, isolated=isolated, sinks=sinks, self_loops=3)
     assert not is_symmetric(m)
@@ -213,7 +222,9 @@ def test_components_of_broken_voronoi_tessellation(seed):
     kept = np.setdiff1d(np.arange(300), removed)
 
     sub = cells[kept]
-    ref = list(nx.connected_components(graph_of_pairs(len(kept), shapely_queen(sub))))  # reference: networkx on shapely contacts
+    ref = list(
+        nx.connected_components(graph_of_pairs(len(kept), shapely_queen(sub)))
+    )  # reference: networkx on shapely contacts
     assert len(ref) >= 5
     assert_components_match(vicino.contiguity(sub, "queen"), ref)
     # the same from the full map with the cells dropped (ids are the original positions)
@@ -291,7 +302,9 @@ def test_order_two_is_reach_two_minus_reach_one_on_undirected():
     reach2 = pairs_of(b @ b)  # reference: scipy product, walks of length 2
     exact2 = reach2 - pairs_of(b) - {(i, i) for i in range(n)}
     assert vicino_pairs(w.order(2)) == exact2  # reference: scipy (B@B) pattern minus B pattern minus diagonal
-    assert vicino_pairs(w.order(2, cumulative=True)) == (reach2 | pairs_of(b)) - {(i, i) for i in range(n)}  # reference: scipy
+    assert vicino_pairs(w.order(2, cumulative=True)) == (reach2 | pairs_of(b)) - {
+        (i, i) for i in range(n)
+    }  # reference: scipy
 
 
 @pytest.mark.parametrize("seed", [41, 42])
@@ -301,7 +314,9 @@ def test_order_on_voronoi_contiguity_matches_networkx(seed):
     g = graph_of_pairs(150, shapely_queen(cells))  # reference: shapely STRtree intersects
     for k in (1, 2, 3):
         assert vicino_pairs(w.order(k)) == reference_order(g, 150, k, cumulative=False)  # reference: networkx BFS
-        assert vicino_pairs(w.order(k, cumulative=True)) == reference_order(g, 150, k, cumulative=True)  # reference: networkx BFS
+        assert vicino_pairs(w.order(k, cumulative=True)) == reference_order(
+            g, 150, k, cumulative=True
+        )  # reference: networkx BFS
 
 
 def test_order_on_a_path_by_hand():
@@ -363,8 +378,12 @@ def test_symmetrize_matches_scipy_elementwise(seed):
 def test_symmetrize_by_hand():
     # W = [[0, 2, 0], [0, 0, 0], [1, 3, 0]]; by hand mean = [[0, 1, .5], [1, 0, 1.5], [.5, 1.5, 0]]
     w = vicino.from_matrix(np.array([[0, 2, 0], [0, 0, 0], [1, 3, 0]], dtype=float))
-    np.testing.assert_array_equal(w.symmetrize("mean").to_dense(), [[0, 1, 0.5], [1, 0, 1.5], [0.5, 1.5, 0]])  # hand calculation
-    np.testing.assert_array_equal(w.symmetrize("union").to_dense(), [[0, 2, 1], [2, 0, 3], [1, 3, 0]])  # hand calculation
+    np.testing.assert_array_equal(
+        w.symmetrize("mean").to_dense(), [[0, 1, 0.5], [1, 0, 1.5], [0.5, 1.5, 0]]
+    )  # hand calculation
+    np.testing.assert_array_equal(
+        w.symmetrize("union").to_dense(), [[0, 2, 1], [2, 0, 3], [1, 3, 0]]
+    )  # hand calculation
     assert w.symmetrize("intersection").nnz == 0  # hand calculation: no link runs both ways
 
 
@@ -451,15 +470,23 @@ def test_subset_keeps_distances_of_links():
     w = vicino.within_distance(xy, 0.12, ids=ids)
     full = brute_distances(xy)
     perm = rng.permutation(120)
-    results = (w.subset(ids[perm[:70]]), w.drop(ids[perm[:20]]), w.align(ids[perm]),
-               w.drop_islands().subset(w.drop_islands().ids[::-1]))
+    results = (
+        w.subset(ids[perm[:70]]),
+        w.drop(ids[perm[:20]]),
+        w.align(ids[perm]),
+        w.drop_islands().subset(w.drop_islands().ids[::-1]),
+    )
     assert len(w.islands) > 0  # drop_islands really removes units here
     for out in results:
         i, j, e = positions(out)
         where = ids.get_indexer(out.ids)  # original positions of the kept units
         assert len(e) > 0
-        np.testing.assert_allclose(e["distance"].to_numpy(), full[where[i], where[j]], rtol=1e-12, atol=1e-15)  # reference: numpy distances
-        np.testing.assert_array_equal(out.to_dense(), w.to_scipy()[where][:, where].toarray())  # reference: scipy fancy indexing
+        np.testing.assert_allclose(
+            e["distance"].to_numpy(), full[where[i], where[j]], rtol=1e-12, atol=1e-15
+        )  # reference: numpy distances
+        np.testing.assert_array_equal(
+            out.to_dense(), w.to_scipy()[where][:, where].toarray()
+        )  # reference: scipy fancy indexing
 
 
 def test_drop_keeps_border_lengths_and_perimeters():
@@ -472,8 +499,12 @@ def test_drop_keeps_border_lengths_and_perimeters():
     i, j, e = positions(d)
     gi, gj = keep[i], keep[j]
     expected = shapely.length(shapely.intersection(shapely.boundary(cells[gi]), shapely.boundary(cells[gj])))
-    np.testing.assert_allclose(e["border_length"].to_numpy(), expected, rtol=0, atol=1e-9)  # reference: shapely boundary intersection length
-    np.testing.assert_allclose(d.perimeter.to_numpy(), shapely.length(cells[keep]), rtol=0, atol=1e-9)  # reference: shapely.length
+    np.testing.assert_allclose(
+        e["border_length"].to_numpy(), expected, rtol=0, atol=1e-9
+    )  # reference: shapely boundary intersection length
+    np.testing.assert_allclose(
+        d.perimeter.to_numpy(), shapely.length(cells[keep]), rtol=0, atol=1e-9
+    )  # reference: shapely.length
 
 
 # ---------------------------------------------------------------------------
@@ -495,7 +526,16 @@ def test_connect_islands_hand_built():
     assert len(r.audit().islands) == 0  # hand calculation
     # k = 2: C gets A (3) and B (sqrt 10); F gets B and D (both at 4.5)
     r2 = w.connect_islands(xy, k=2, weight=0.5)
-    assert vicino_pairs(r2) - vicino_pairs(w) == {(2, 0), (0, 2), (2, 1), (1, 2), (5, 1), (1, 5), (5, 3), (3, 5)}  # hand calculation
+    assert vicino_pairs(r2) - vicino_pairs(w) == {
+        (2, 0),
+        (0, 2),
+        (2, 1),
+        (1, 2),
+        (5, 1),
+        (1, 5),
+        (5, 3),
+        (3, 5),
+    }  # hand calculation
     dense = r2.to_dense()
     assert dense[2, 0] == dense[0, 2] == 0.5 and dense[0, 1] == 1.0  # hand calculation: new links weigh 0.5
     # brute force agrees
@@ -512,7 +552,9 @@ def test_connect_islands_ties_by_position_not_by_id():
     w = vicino.from_matrix(m, ids=ids)
     for k, expected in ((1, [0]), (2, [0, 1]), (3, [0, 1, 2]), (4, [0, 1, 2, 4])):
         r = w.connect_islands(xy, k=k)
-        assert sorted(r.neighbors_of("isle").index) == sorted(ids[j] for j in expected)  # hand calculation: all at distance 1, lower positions first
+        assert sorted(r.neighbors_of("isle").index) == sorted(
+            ids[j] for j in expected
+        )  # hand calculation: all at distance 1, lower positions first
         assert brute_nearest(brute_distances(xy), 3, k) == expected  # reference: numpy lexsort (distance, position)
 
 
@@ -536,8 +578,12 @@ def test_connect_islands_random_symmetric(seed, k):
     # weights: old links keep 1, new ones weigh 2; old links keep their distances
     i, j, e = positions(r)
     new = np.array([(a, b) in expected for a, b in zip(i, j)])
-    assert (e["weight"].to_numpy()[new] == 2.0).all() and (e["weight"].to_numpy()[~new] == 1.0).all()  # reference: numpy brute force (which links are new)
-    np.testing.assert_allclose(e["distance"].to_numpy()[~new], d[i[~new], j[~new]], rtol=1e-12, atol=1e-15)  # reference: numpy distances
+    assert (e["weight"].to_numpy()[new] == 2.0).all() and (
+        e["weight"].to_numpy()[~new] == 1.0
+    ).all()  # reference: numpy brute force (which links are new)
+    np.testing.assert_allclose(
+        e["distance"].to_numpy()[~new], d[i[~new], j[~new]], rtol=1e-12, atol=1e-15
+    )  # reference: numpy distances
     assert r.recipe[-1].params["links_added"] == len(expected)  # reference: numpy brute force
 
 
@@ -567,14 +613,18 @@ def test_repairs_great_circle():
     m = w.to_scipy()
     assert (np.diff(m.indptr) == 0).sum() >= 3
     r = w.connect_islands(lonlat, k=2, metric="great_circle")
-    expected = brute_island_links(m, brute_haversine(lonlat), 2, both=True)  # reference: haversine brute force (Sinnott 1984)
+    expected = brute_island_links(
+        m, brute_haversine(lonlat), 2, both=True
+    )  # reference: haversine brute force (Sinnott 1984)
     assert vicino_pairs(r) == vicino_pairs(w) | expected  # reference: haversine brute force
     ref = list(nx.connected_components(nx_graph(m, directed=False)))  # reference: networkx.connected_components
     assert len(ref) >= 3
     c = w.connect_components(lonlat, metric="great_circle")
     expected = brute_component_links(ref, 120, brute_haversine(lonlat), both=True)  # reference: haversine brute force
     assert vicino_pairs(c) == vicino_pairs(w) | expected  # reference: haversine brute force closest pairs
-    assert c.audit().components.count == 1  # reference: networkx (one closest pair per smaller part joins it to the largest)
+    assert (
+        c.audit().components.count == 1
+    )  # reference: networkx (one closest pair per smaller part joins it to the largest)
 
 
 def test_connect_components_hand_built():
@@ -609,7 +659,9 @@ def test_connect_components_ties_lower_i_then_j():
     added = vicino_pairs(w.connect_components(xy)) - vicino_pairs(w)
     assert added == {(3, 0), (0, 3)}  # hand calculation
     ref = list(nx.connected_components(nx_graph(sp.csr_array(m), directed=False)))  # reference: networkx
-    assert added == brute_component_links(ref, 5, brute_distances(xy), True)  # reference: numpy brute force, (distance, i, j)
+    assert added == brute_component_links(
+        ref, 5, brute_distances(xy), True
+    )  # reference: numpy brute force, (distance, i, j)
 
 
 @pytest.mark.parametrize("seed", [91, 92, 93])
@@ -621,7 +673,9 @@ def test_connect_components_random_symmetric(seed):
     ref = list(nx.connected_components(nx_graph(m, directed=False)))  # reference: networkx.connected_components
     assert len(ref) >= 4
     r = w.connect_components(xy)
-    expected = brute_component_links(ref, 160, brute_distances(xy), both=True)  # reference: numpy brute force closest pairs
+    expected = brute_component_links(
+        ref, 160, brute_distances(xy), both=True
+    )  # reference: numpy brute force closest pairs
     assert len(expected) == 2 * (len(ref) - 1)
     assert vicino_pairs(r) == vicino_pairs(w) | expected  # reference: numpy brute force closest pairs
     assert r.audit().components.count == 1  # reference: networkx.is_connected (above)
@@ -660,14 +714,23 @@ def test_repairs_locate_polygons_at_area_centroids():
     assert list(w.audit().islands) == ["L"]  # hand calculation: L touches nothing
     r = w.connect_islands(polys)
     assert r.neighbors_of("L").index.tolist() == ["S1"]  # hand calculation: sqrt(2) * 61/14 < sqrt(2) * 65/14
-    assert vicino_pairs(r) - vicino_pairs(w) == brute_island_links(w.to_scipy(), brute_distances(c), 1, True)  # reference: shapely.centroid + numpy
+    assert vicino_pairs(r) - vicino_pairs(w) == brute_island_links(
+        w.to_scipy(), brute_distances(c), 1, True
+    )  # reference: shapely.centroid + numpy
     # components {S1, S1b} (label 0: tie of size 2, holds the earlier unit), {S2, S2b}, {L}
     comps = w.audit().components
     assert comps.labels.tolist() == [2, 0, 0, 1, 1]  # hand calculation
     cc = w.connect_components(pd.Series(polys, index=w.ids))
     ref = list(nx.connected_components(nx_graph(w.to_scipy(), directed=False)))  # reference: networkx
-    assert vicino_pairs(cc) - vicino_pairs(w) == brute_component_links(ref, 5, brute_distances(c), True)  # reference: shapely.centroid + numpy
-    assert vicino_pairs(cc) - vicino_pairs(w) == {(0, 1), (1, 0), (3, 1), (1, 3)}  # hand calculation: L-S1, S2-S1 (9 sqrt 2)
+    assert vicino_pairs(cc) - vicino_pairs(w) == brute_component_links(
+        ref, 5, brute_distances(c), True
+    )  # reference: shapely.centroid + numpy
+    assert vicino_pairs(cc) - vicino_pairs(w) == {
+        (0, 1),
+        (1, 0),
+        (3, 1),
+        (1, 3),
+    }  # hand calculation: L-S1, S2-S1 (9 sqrt 2)
 
 
 @pytest.mark.parametrize("seed", [96, 97])
@@ -685,17 +748,27 @@ def test_repairs_with_voronoi_cells_as_locations(seed):
     m = w.to_scipy()
     assert (np.diff(m.indptr) == 0).sum() >= 1
     r = w.connect_islands(sub, k=2)
-    assert vicino_pairs(r) == vicino_pairs(w) | brute_island_links(m, d, 2, True)  # reference: shapely.centroid + numpy brute force
+    assert vicino_pairs(r) == vicino_pairs(w) | brute_island_links(
+        m, d, 2, True
+    )  # reference: shapely.centroid + numpy brute force
     assert len(r.audit().islands) == 0  # reference: numpy brute force (every island got 2 links)
     i, j, e = positions(r)
     old = np.array([(a, b) in vicino_pairs(w) for a, b in zip(i, j)])
     expected_length = shapely.length(shapely.intersection(shapely.boundary(sub[i[old]]), shapely.boundary(sub[j[old]])))
-    np.testing.assert_allclose(e["border_length"].to_numpy()[old], expected_length, rtol=0, atol=1e-9)  # reference: shapely boundary intersection length
-    ref = list(nx.connected_components(graph_of_pairs(len(keep), shapely_queen(sub))))  # reference: networkx on shapely contacts
+    np.testing.assert_allclose(
+        e["border_length"].to_numpy()[old], expected_length, rtol=0, atol=1e-9
+    )  # reference: shapely boundary intersection length
+    ref = list(
+        nx.connected_components(graph_of_pairs(len(keep), shapely_queen(sub)))
+    )  # reference: networkx on shapely contacts
     assert len(ref) >= 2
     cc = w.connect_components(list(sub))
-    assert vicino_pairs(cc) == vicino_pairs(w) | brute_component_links(ref, len(keep), d, True)  # reference: shapely.centroid + numpy
-    assert cc.audit().components.count == 1  # reference: networkx (one closest pair per smaller part joins it to the largest)
+    assert vicino_pairs(cc) == vicino_pairs(w) | brute_component_links(
+        ref, len(keep), d, True
+    )  # reference: shapely.centroid + numpy
+    assert (
+        cc.audit().components.count == 1
+    )  # reference: networkx (one closest pair per smaller part joins it to the largest)
 
 
 # ---------------------------------------------------------------------------
@@ -728,15 +801,21 @@ def test_audit_facts_match_scipy(seed):
     assert asym[i, j] == value  # reference: numpy |W - W.T| at the reported pair
     assert a.symmetric is False  # reference: scipy W != W.T
     assert a.density == pytest.approx((m.nnz - 4) / (n * (n - 1)), rel=1e-15)  # reference: (nnz - diag) / (n (n - 1))
-    pd.testing.assert_series_equal(a.counts, pd.Series(row_counts, index=ids, name="neighbors"), check_dtype=False)  # reference: scipy row counts
+    pd.testing.assert_series_equal(
+        a.counts, pd.Series(row_counts, index=ids, name="neighbors"), check_dtype=False
+    )  # reference: scipy row counts
     assert a.summary["min"] == row_counts.min() and a.summary["max"] == row_counts.max()  # reference: numpy
-    assert a.summary["median"] == np.median(row_counts) and a.summary["mean"] == pytest.approx(row_counts.mean())  # reference: numpy
+    assert a.summary["median"] == np.median(row_counts) and a.summary["mean"] == pytest.approx(
+        row_counts.mean()
+    )  # reference: numpy
     # the histogram counts units per neighbour count
     h = a.histogram
     lo = row_counts.min()
     ref_hist = np.bincount(row_counts - lo)
     if len(ref_hist) <= 16:
-        assert h["neighbours"].tolist() == [str(v) for v in range(lo, row_counts.max() + 1)]  # reference: numpy.bincount
+        assert h["neighbours"].tolist() == [
+            str(v) for v in range(lo, row_counts.max() + 1)
+        ]  # reference: numpy.bincount
         np.testing.assert_array_equal(h["units"], ref_hist)  # reference: numpy.bincount
     assert h["units"].sum() == n and h["share"].sum() == pytest.approx(1.0)  # reference: every unit is counted once
 
@@ -750,7 +829,11 @@ def test_audit_max_asymmetry_ties_go_to_first_pair():
     flat = int(np.argmax(asym))  # reference: numpy argmax (row-major: lowest i, then lowest j)
     assert (asym == 1.0).sum() > 1  # there are ties
     ids = pd.Index(str_ids(40))
-    assert vicino.from_matrix(m, ids=ids).audit().max_asymmetry == (1.0, ids[flat // 40], ids[flat % 40])  # reference: numpy argmax
+    assert vicino.from_matrix(m, ids=ids).audit().max_asymmetry == (
+        1.0,
+        ids[flat // 40],
+        ids[flat % 40],
+    )  # reference: numpy argmax
 
 
 def test_audit_symmetric_facts_match_scipy():
@@ -758,7 +841,9 @@ def test_audit_symmetric_facts_match_scipy():
     a = vicino.from_matrix(m).audit()
     assert is_symmetric(m)  # reference: scipy
     assert a.symmetric and a.max_asymmetry is None and a.one_way_links == 0  # reference: scipy W == W.T
-    assert a.zero_columns.tolist() == np.flatnonzero(np.diff(m.indptr) == 0).tolist()  # reference: scipy (symmetric: zero columns are empty rows)
+    assert (
+        a.zero_columns.tolist() == np.flatnonzero(np.diff(m.indptr) == 0).tolist()
+    )  # reference: scipy (symmetric: zero columns are empty rows)
 
 
 def test_audit_hand_built_map():
@@ -783,7 +868,9 @@ def test_audit_hand_built_map():
     assert a.summary.to_dict() == pytest.approx({"min": 0, "median": 1, "mean": 8 / 7, "max": 2})  # hand calculation
     assert a.histogram["units"].tolist() == [2, 2, 3]  # hand calculation: counts 0, 1, 2
     levels = {f.check: f.level for f in a.findings}
-    assert levels["islands"] == "problem" and levels["components"] == "warning"  # hand calculation: islands and pieces exist
+    assert (
+        levels["islands"] == "problem" and levels["components"] == "warning"
+    )  # hand calculation: islands and pieces exist
     assert levels["symmetry"] == "ok" and levels["self-links"] == "ok"  # hand calculation
     frame = a.to_frame()
     assert list(frame.columns) == ["level", "check", "message"] and len(frame) == len(a.findings)
@@ -803,7 +890,9 @@ def test_audit_hand_built_map():
     assert b.density == pytest.approx(9 / 42)  # hand calculation: 10 entries less 1 self-link
     assert sorted(b.zero_columns) == ["f", "g"]  # hand calculation: nobody links to f or g (d links to itself)
     levels = {f.check: f.level for f in b.findings}
-    assert levels["self-links"] == "warning" and levels["symmetry"] == "note"  # hand calculation: a self-link and a one-way link exist
+    assert (
+        levels["self-links"] == "warning" and levels["symmetry"] == "note"
+    )  # hand calculation: a self-link and a one-way link exist
     assert levels["zero columns"] == "note"  # hand calculation: g has a neighbour but is nobody's
 
 
@@ -841,8 +930,12 @@ def test_large_matrix_graph_operations_match_scipy():
     assert (w.subset(idx).to_scipy() != m[idx][:, idx]).nnz == 0  # reference: scipy W[idx][:, idx]
     # audit facts
     a = w.audit()
-    assert a.zero_columns.tolist() == np.flatnonzero(np.bincount(m.indices, minlength=n) == 0).tolist()  # reference: scipy column counts
-    assert a.one_way_links == len(pairs_of(m) - pairs_of(m.T))  # reference: python sets of scipy pairs (W_ij > 0, W_ji == 0)
+    assert (
+        a.zero_columns.tolist() == np.flatnonzero(np.bincount(m.indices, minlength=n) == 0).tolist()
+    )  # reference: scipy column counts
+    assert a.one_way_links == len(
+        pairs_of(m) - pairs_of(m.T)
+    )  # reference: python sets of scipy pairs (W_ij > 0, W_ji == 0)
     assert a.max_asymmetry[0] == abs(sp.csr_array(m - m.T)).max()  # reference: scipy max |W - W.T|
 
 

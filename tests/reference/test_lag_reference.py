@@ -91,8 +91,9 @@ def test_lag_series_keeps_index_and_name(w):
 
 def test_lag_dataframe_keeps_index_and_columns(w):
     rng = np.random.default_rng(8)
-    df = pd.DataFrame({"a": rng.normal(size=w.n), "b": rng.integers(0, 10, w.n), "c": rng.uniform(size=w.n)},
-                      index=w.ids)
+    df = pd.DataFrame(
+        {"a": rng.normal(size=w.n), "b": rng.integers(0, 10, w.n), "c": rng.uniform(size=w.n)}, index=w.ids
+    )
     got = w.lag(df)
     assert isinstance(got, pd.DataFrame)
     assert got.index.equals(df.index)
@@ -134,8 +135,9 @@ def test_lag_large_2d_and_frame(big):
     w = big.standardize("row")
     rng = np.random.default_rng(12)
     x = rng.normal(size=(w.n, 4))
-    a = sp.csr_matrix((np.array(w.to_scipy().data), np.array(w.to_scipy().indices), np.array(w.to_scipy().indptr)),
-                      shape=(w.n, w.n))
+    a = sp.csr_matrix(
+        (np.array(w.to_scipy().data), np.array(w.to_scipy().indices), np.array(w.to_scipy().indptr)), shape=(w.n, w.n)
+    )
     np.testing.assert_allclose(w.lag(x), a @ x, rtol=1e-12, atol=1e-12)  # reference: scipy.sparse csr @ X
     df = pd.DataFrame(x, columns=list("pqrs"), index=w.ids)
     got = w.lag(df)

@@ -59,6 +59,7 @@ def moran_numpy(x, w):
 def rook_lattice(rows, cols):
     def path(m):
         return sp.diags([np.ones(m - 1), np.ones(m - 1)], [-1, 1], shape=(m, m))
+
     return sp.csr_array(sp.kron(sp.eye(rows), path(cols)) + sp.kron(path(rows), sp.eye(cols)))
 
 
@@ -259,8 +260,10 @@ def test_clustered_data_permutation_p_is_minimum():
 def test_alternative_counts_match_numpy_recount(knn60, seed):
     x = _values(60, "normal", seed=11 + seed)
     R = 999
-    results = {alt: vicino.moran(x, knn60, permutations=R, seed=seed, alternative=alt)
-               for alt in ("two-sided", "greater", "less")}
+    results = {
+        alt: vicino.moran(x, knn60, permutations=R, seed=seed, alternative=alt)
+        for alt in ("two-sided", "greater", "less")
+    }
     d = results["greater"].permutation.draws
     i = results["greater"].statistic
     ei = -1.0 / (60 - 1)
@@ -305,8 +308,9 @@ def test_draws_identical_across_thread_counts(tmp_path):
     for threads in ("1", "2", "4"):
         env = dict(os.environ, RAYON_NUM_THREADS=threads)
         path = tmp_path / f"out{threads}.npy"
-        proc = subprocess.run([sys.executable, str(script), str(path)], env=env, capture_output=True, text=True,
-                              timeout=300)
+        proc = subprocess.run(
+            [sys.executable, str(script), str(path)], env=env, capture_output=True, text=True, timeout=300
+        )
         assert proc.returncode == 0, proc.stderr
         out[threads] = np.load(path)
     assert out["1"].size == 1 + 64 + 20_000

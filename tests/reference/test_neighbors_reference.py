@@ -113,9 +113,7 @@ def test_k_nearest_weights_are_asymmetric_like_reference():
     xy = rng.random((300, 2))
     w = vicino.k_nearest(xy, 3)
     _, idx = cKDTree(xy).query(xy, k=4)  # reference: scipy.spatial.cKDTree
-    ref = sp.csr_array(
-        (np.ones(300 * 3), idx[:, 1:].ravel(), np.arange(0, 300 * 3 + 1, 3)), shape=(300, 300)
-    )
+    ref = sp.csr_array((np.ones(300 * 3), idx[:, 1:].ravel(), np.arange(0, 300 * 3 + 1, 3)), shape=(300, 300))
     m = w.to_scipy()
     assert (m != ref).nnz == 0  # reference: scipy.spatial.cKDTree
     # the asymmetry of vicino equals the asymmetry of the reference
@@ -267,7 +265,7 @@ def airports() -> pd.DataFrame:
 
 
 def test_earth_radius_is_iugg_mean_radius():
-    assert vicino.EARTH_RADIUS_KM == pytest.approx(R1_KM, abs=1e-9)  # reference: IUGG R1 (Moritz 2000)
+    assert pytest.approx(R1_KM, abs=1e-9) == vicino.EARTH_RADIUS_KM  # reference: IUGG R1 (Moritz 2000)
 
 
 def test_haversine_helper_sanity():
@@ -388,7 +386,9 @@ def test_great_circle_across_antimeridian_and_near_poles():
     n = 300
     lon = rng.uniform(170.0, 190.0, n)
     lon = np.where(lon > 180.0, lon - 360.0, lon)  # straddles +-180
-    lat = np.concatenate([rng.uniform(-10, 10, n // 3), rng.uniform(80, 89.99, n // 3), rng.uniform(-89.99, -80, n - 2 * (n // 3))])
+    lat = np.concatenate(
+        [rng.uniform(-10, 10, n // 3), rng.uniform(80, 89.99, n // 3), rng.uniform(-89.99, -80, n - 2 * (n // 3))]
+    )
     lonlat = np.column_stack([lon, lat])
     d = brute_haversine(lonlat)  # reference: haversine formula, R1 = 6371.0088 km
     w = vicino.k_nearest(lonlat, 6, metric="great_circle")

@@ -21,8 +21,7 @@ METHODS = ("row", "binary", "max_entry", "max_eigenvalue", "global", "variance_s
 def random_sparse(n, density, seed, *, symmetric):
     """A random non-negative sparse matrix without self-loops or empty rows."""
     rng = np.random.default_rng(seed)
-    a = sp.random(n, n, density=density, random_state=rng, format="csr",
-                  data_rvs=lambda k: rng.uniform(0.1, 5.0, k))
+    a = sp.random(n, n, density=density, random_state=rng, format="csr", data_rvs=lambda k: rng.uniform(0.1, 5.0, k))
     # a directed ring guarantees every row has a neighbour
     ring = sp.csr_array((rng.uniform(0.1, 5.0, n), (np.arange(n), (np.arange(n) + 1) % n)), shape=(n, n))
     a = sp.csr_array(a) + ring
@@ -38,8 +37,10 @@ def random_sparse(n, density, seed, *, symmetric):
 
 def rook_lattice(rows, cols):
     """Binary rook adjacency of a rows x cols grid: kron(I, P_c) + kron(P_r, I)."""
+
     def path(m):
         return sp.diags([np.ones(m - 1), np.ones(m - 1)], [-1, 1], shape=(m, m))
+
     a = sp.kron(sp.eye(rows), path(cols)) + sp.kron(path(rows), sp.eye(cols))
     return sp.csr_array(a)
 
@@ -315,7 +316,10 @@ def test_each_step_is_appended_to_recipe():
     r = w.standardize("row")
     assert r.recipe == first + (Step("standardize", {"method": "row"}),)
     rr = r.standardize("max_eigenvalue")
-    assert rr.recipe == first + (Step("standardize", {"method": "row"}), Step("standardize", {"method": "max_eigenvalue"}))
+    assert rr.recipe == first + (
+        Step("standardize", {"method": "row"}),
+        Step("standardize", {"method": "max_eigenvalue"}),
+    )
     assert w.recipe == first  # the original is unchanged (immutable)
     # the chained result is the composition computed with scipy
     ref = reference(sp.csr_array(reference(raw(w), "row")), "max_eigenvalue")
@@ -347,7 +351,7 @@ def test_spectral_radius_short_weighted_directed_cycle():
 
 @pytest.mark.xfail(
     reason="vicino bug: shifted power iteration does not converge for a weighted directed cycle of 200 units "
-           "(spectrum rho * exp(2 pi i k / n), period n); raises ConvergenceError after 100000 iterations",
+    "(spectrum rho * exp(2 pi i k / n), period n); raises ConvergenceError after 100000 iterations",
     strict=True,
 )
 def test_spectral_radius_long_weighted_directed_cycle():

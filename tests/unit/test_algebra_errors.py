@@ -408,8 +408,9 @@ def test_polygon_island_with_empty_geometry_names_its_id():
 
 def test_polygon_island_with_empty_geometry_named_by_label():
     shapely = pytest.importorskip("shapely")
-    shapes = pd.Series([shapely.Polygon(), shapely.box(0, 0, 1, 1), shapely.box(1, 0, 2, 1)],
-                       index=["Zedmoor", "Yarrow", "Xentby"])
+    shapes = pd.Series(
+        [shapely.Polygon(), shapely.box(0, 0, 1, 1), shapely.box(1, 0, 2, 1)], index=["Zedmoor", "Yarrow", "Xentby"]
+    )
     with pytest.warns(UserWarning):
         w = vicino.contiguity(shapes)
     with pytest.raises(vicino.InvalidInputError, match="'Zedmoor'") as err:
@@ -420,8 +421,9 @@ def test_polygon_island_with_empty_geometry_named_by_label():
 
 def test_polygon_input_with_wrong_order_is_refused():
     shapely = pytest.importorskip("shapely")
-    shapes = pd.Series([shapely.box(0, 0, 1, 1), shapely.box(1, 0, 2, 1), shapely.box(5, 0, 6, 1)],
-                       index=["Ostby", "Pellow", "Quarne"])
+    shapes = pd.Series(
+        [shapely.box(0, 0, 1, 1), shapely.box(1, 0, 2, 1), shapely.box(5, 0, 6, 1)], index=["Ostby", "Pellow", "Quarne"]
+    )
     w = vicino.contiguity(shapes)
     with pytest.raises(vicino.IdError, match="another order"):
         w.connect_islands(shapes.iloc[::-1])

@@ -46,7 +46,7 @@ def with_counts(counts, ids=None, network=False):
 def path_with_islands():
     """a - b - c linked both ways; d and e have no links.
 
-        a - b - c     d     e
+    a - b - c     d     e
     """
     m = np.zeros((5, 5))
     for i, j in [(0, 1), (1, 2)]:
@@ -335,7 +335,7 @@ def test_histogram_has_one_row_per_count_when_few():
     hist = w.audit().histogram
     row_counts = np.count_nonzero(m, axis=1)
     assert list(hist.columns) == ["neighbours", "units", "share"]
-    assert list(hist["neighbours"]) == [str(v) for v in range(0, 6)]  # by hand: every value from 0 to 5
+    assert list(hist["neighbours"]) == [str(v) for v in range(6)]  # by hand: every value from 0 to 5
     np.testing.assert_array_equal(hist["units"], np.bincount(row_counts))  # reference: numpy bincount
     assert hist["units"].sum() == len(counts)
     np.testing.assert_allclose(hist["share"], np.bincount(row_counts) / len(counts))
@@ -606,8 +606,9 @@ def ring(n=5):
     return m, vicino.from_matrix(m, ids=[f"Vell{i}" for i in range(n)])
 
 
-@pytest.mark.parametrize("remove", [lambda w: w.subset(["Vell0", "Vell1", "Vell2"]), lambda w: w.drop(["Vell4"])],
-                         ids=["subset", "drop"])
+@pytest.mark.parametrize(
+    "remove", [lambda w: w.subset(["Vell0", "Vell1", "Vell2"]), lambda w: w.drop(["Vell4"])], ids=["subset", "drop"]
+)
 def test_removing_units_from_row_standardized_weights_warns(remove):
     m, w = ring()
     r = w.standardize("row")

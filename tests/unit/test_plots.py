@@ -35,9 +35,17 @@ def scattered(n=30, seed=3):
 def with_islands():
     """Points on two rows with a far-off pair and a lone unit; linked within distance 1.2."""
     xy = np.array(
-        [[0, 0], [1, 0], [2, 0], [0, 1], [1, 1], [2, 1],  # a 2 x 3 block
-         [8, 8], [8.5, 8],  # a pair far away
-         [-6, 5]],  # alone
+        [
+            [0, 0],
+            [1, 0],
+            [2, 0],
+            [0, 1],
+            [1, 1],
+            [2, 1],  # a 2 x 3 block
+            [8, 8],
+            [8.5, 8],  # a pair far away
+            [-6, 5],
+        ],  # alone
         dtype=float,
     )
     return xy, vicino.within_distance(xy, 1.2)
@@ -173,12 +181,16 @@ def test_plot_links_marks_islands_and_small_components():
     m = w.to_dense()
     _, labels = connected_components(m, directed=True, connection="weak")  # reference: scipy csgraph
     largest = np.argmax(np.bincount(labels))
-    small_pairs = [(i, j) for i in range(w.n) for j in range(i + 1, w.n)
-                   if (m[i, j] or m[j, i]) and labels[i] != largest]
+    small_pairs = [
+        (i, j) for i in range(w.n) for j in range(i + 1, w.n) if (m[i, j] or m[j, i]) and labels[i] != largest
+    ]
     small = [c for c in link_collections(ax) if same_color(c.get_colors()[0], plots.SMALL)]
     assert sum(len(c.get_segments()) for c in small) == len(small_pairs) == 1  # by hand: the far pair
-    ringed = [c for c in ax.collections if not isinstance(c, LineCollection)
-              and len(c.get_offsets()) and same_color(c.get_edgecolor()[0], plots.ISLAND)]
+    ringed = [
+        c
+        for c in ax.collections
+        if not isinstance(c, LineCollection) and len(c.get_offsets()) and same_color(c.get_edgecolor()[0], plots.ISLAND)
+    ]
     assert len(ringed) == 1
     np.testing.assert_allclose(ringed[0].get_offsets(), xy[w.to_dense().sum(axis=1) == 0])  # by hand: (-6, 5)
     labels_text = [t.get_text() for t in ax.get_legend().get_texts()]
@@ -207,8 +219,11 @@ def test_plot_links_polygons(tmp_path):
     ax = w.plot_links(districts)
     assert isinstance(ax, matplotlib.axes.Axes)
     assert drawn_segments(ax) == linked_pairs(w)
-    borders = [c for c in ax.collections if isinstance(c, LineCollection) and len(c.get_colors())
-               and same_color(c.get_colors()[0], plots.BORDER)]
+    borders = [
+        c
+        for c in ax.collections
+        if isinstance(c, LineCollection) and len(c.get_colors()) and same_color(c.get_colors()[0], plots.BORDER)
+    ]
     assert len(borders) == 1
     assert len(borders[0].get_segments()) >= w.n  # at least one boundary ring per district
     img = saved_image(ax, tmp_path)

@@ -10,7 +10,11 @@ use vicino_core::neighbors::Metric;
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let bytes = std::fs::read(&args[0]).expect("read wkb");
-    let off: Vec<i64> = std::fs::read(&args[1]).expect("read offsets").chunks_exact(8).map(|c| i64::from_ne_bytes(c.try_into().unwrap())).collect();
+    let off: Vec<i64> = std::fs::read(&args[1])
+        .expect("read offsets")
+        .chunks_exact(8)
+        .map(|c| i64::from_ne_bytes(c.try_into().unwrap()))
+        .collect();
     for _ in 0..2 {
         let t = Instant::now();
         let b = decode_polygons(&bytes, &off).unwrap();

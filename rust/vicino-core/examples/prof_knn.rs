@@ -18,6 +18,12 @@ fn main() {
         let a = t.elapsed();
         let t = Instant::now();
         let r = within_distance(&xy, (k as f64 / (std::f64::consts::PI * n as f64)).sqrt(), Metric::Euclidean).unwrap();
-        println!("k_nearest {:?} ({} links); within_distance {:?} ({} links)", a, nb.graph.view().nnz(), t.elapsed(), r.graph.view().nnz());
+        println!(
+            "k_nearest {:?} ({} links); within_distance {:?} ({} links)",
+            a,
+            nb.graph.view().nnz(),
+            t.elapsed(),
+            r.graph.view().nnz()
+        );
     }
 }

@@ -9,7 +9,10 @@ use vicino_core::stats::permutation::{shuffle, stream};
 fn main() {
     let n = 100_000;
     let mut s = 1u64;
-    let mut rnd = || { s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407); (s >> 11) as f64 / (1u64 << 53) as f64 };
+    let mut rnd = || {
+        s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+        (s >> 11) as f64 / (1u64 << 53) as f64
+    };
     let xy: Vec<f64> = (0..2 * n).map(|_| rnd()).collect();
     let nb = k_nearest(&xy, 8, Metric::Euclidean).unwrap();
     let d = standardize(nb.graph.view(), Method::Row, Islands::Raise).unwrap();
@@ -27,19 +30,29 @@ fn main() {
     let y = q.local(&z);
     let mut buf = y.clone();
     let t = Instant::now();
-    for r in 0..200 { buf.copy_from_slice(&y); shuffle(&mut stream(1, r), &mut buf); }
+    for r in 0..200 {
+        buf.copy_from_slice(&y);
+        shuffle(&mut stream(1, r), &mut buf);
+    }
     println!("shuffle per draw {:?}", t.elapsed() / 200);
     let t = Instant::now();
     let mut acc = 0.0;
-    for _ in 0..200 { acc += q.eval_local(&buf); }
+    for _ in 0..200 {
+        acc += q.eval_local(&buf);
+    }
     println!("eval per draw {:?} {}", t.elapsed() / 200, acc);
     let t = Instant::now();
     let mut acc = 0.0;
-    for _ in 0..100 { let (a, b) = q.eval_local_pair(&buf, &y); acc += a + b; }
+    for _ in 0..100 {
+        let (a, b) = q.eval_local_pair(&buf, &y);
+        acc += a + b;
+    }
     println!("pair per draw {:?} {}", t.elapsed() / 200, acc);
     let zz = buf.clone();
     let t = Instant::now();
     let mut acc = 0.0;
-    for _ in 0..200 { acc += q.eval(&zz); }
+    for _ in 0..200 {
+        acc += q.eval(&zz);
+    }
     println!("eval+local per draw {:?} {}", t.elapsed() / 200, acc);
 }

@@ -133,9 +133,7 @@ impl<'a> CsrRef<'a> {
 
     /// Rows with no stored entry of positive weight: units without neighbours.
     pub fn islands(&self) -> Vec<usize> {
-        (0..self.n)
-            .filter(|&i| self.row(i).1.iter().all(|&v| v == 0.0))
-            .collect()
+        (0..self.n).filter(|&i| self.row(i).1.iter().all(|&v| v == 0.0)).collect()
     }
 
     /// Sum of each row.
@@ -365,10 +363,7 @@ mod tests {
             Csr::new(2, vec![0, 1, 1], vec![1], vec![-1.0]),
             Err(Error::NegativeWeight { row: 0, col: 1, .. })
         ));
-        assert!(matches!(
-            Csr::new(2, vec![0, 1, 1], vec![1], vec![f64::NAN]),
-            Err(Error::NonFiniteWeight { .. })
-        ));
+        assert!(matches!(Csr::new(2, vec![0, 1, 1], vec![1], vec![f64::NAN]), Err(Error::NonFiniteWeight { .. })));
         assert!(Csr::new(2, vec![0, 1, 2], vec![1, 0], vec![1.0, 2.0]).is_ok());
     }
 

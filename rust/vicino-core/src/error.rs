@@ -43,7 +43,9 @@ pub enum Error {
     LongitudeOutOfRange { index: usize, value: f64 },
     #[error("unit at position {unit} has an unreadable geometry: {reason}")]
     InvalidGeometry { unit: usize, reason: String },
-    #[error("unknown contiguity rule {name:?}: use \"queen\" (a shared point) or \"rook\" (a shared stretch of border)")]
+    #[error(
+        "unknown contiguity rule {name:?}: use \"queen\" (a shared point) or \"rook\" (a shared stretch of border)"
+    )]
     UnknownRule { name: String },
     #[error("tolerance = {tolerance} is not usable: give a finite number >= 0 in the units of the coordinates")]
     InvalidTolerance { tolerance: f64 },

@@ -83,7 +83,13 @@ pub struct Health {
 
 /// Merge two sorted rows, calling `f(col, a, b)` for every column in either.
 #[inline]
-fn merge_rows(ac: &[i64], av: &[f64], bc: &[i64], bv: &[f64], mut f: impl FnMut(i64, Option<(usize, f64)>, Option<f64>)) {
+fn merge_rows(
+    ac: &[i64],
+    av: &[f64],
+    bc: &[i64],
+    bv: &[f64],
+    mut f: impl FnMut(i64, Option<(usize, f64)>, Option<f64>),
+) {
     let (mut p, mut q) = (0, 0);
     while p < ac.len() || q < bc.len() {
         let take_a = q == bc.len() || (p < ac.len() && ac[p] <= bc[q]);
@@ -264,7 +270,11 @@ impl SetOp {
             "union" => Ok(Self::Union),
             "intersection" => Ok(Self::Intersection),
             "difference" => Ok(Self::Difference),
-            _ => Err(Error::UnknownOption { what: "set operation", name: name.into(), options: "\"union\", \"intersection\", \"difference\"" }),
+            _ => Err(Error::UnknownOption {
+                what: "set operation",
+                name: name.into(),
+                options: "\"union\", \"intersection\", \"difference\"",
+            }),
         }
     }
 }
@@ -308,7 +318,11 @@ impl Symmetrize {
             "union" => Ok(Self::Union),
             "intersection" => Ok(Self::Intersection),
             "mean" => Ok(Self::Mean),
-            _ => Err(Error::UnknownOption { what: "symmetrize rule", name: name.into(), options: "\"union\", \"intersection\", \"mean\"" }),
+            _ => Err(Error::UnknownOption {
+                what: "symmetrize rule",
+                name: name.into(),
+                options: "\"union\", \"intersection\", \"mean\"",
+            }),
         }
     }
 }

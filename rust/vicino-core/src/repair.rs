@@ -19,11 +19,8 @@ fn locations(xy: &[f64], n: usize, metric: Metric) -> Result<(Vec<f64>, Vec<bool
         return Err(Error::LengthMismatch { what: "the locations (as x, y pairs)", expected: n, got: xy.len() / 2 });
     }
     let located: Vec<bool> = xy.chunks_exact(2).map(|p| p[0].is_finite() && p[1].is_finite()).collect();
-    let filled: Vec<f64> = xy
-        .chunks_exact(2)
-        .zip(&located)
-        .flat_map(|(p, &ok)| if ok { [p[0], p[1]] } else { [0.0, 0.0] })
-        .collect();
+    let filled: Vec<f64> =
+        xy.chunks_exact(2).zip(&located).flat_map(|(p, &ok)| if ok { [p[0], p[1]] } else { [0.0, 0.0] }).collect();
     metric.check(&filled)?;
     Ok((metric.canonical(&filled).into_owned(), located))
 }
@@ -80,7 +77,11 @@ pub fn component_links(w: CsrRef<'_>, xy: &[f64], metric: Metric) -> Result<Vec<
     let targets: Vec<usize> = (0..n).filter(|&u| located[u] && comps.labels[u] == 0).collect();
     if targets.is_empty() {
         let largest: Vec<usize> = (0..n).filter(|&u| comps.labels[u] == 0).collect();
-        return Err(Error::Unlocated { what: "units of the largest component", count: largest.len(), first: largest.into_iter().take(crate::error::FIRST_FEW).collect() });
+        return Err(Error::Unlocated {
+            what: "units of the largest component",
+            count: largest.len(),
+            first: largest.into_iter().take(crate::error::FIRST_FEW).collect(),
+        });
     }
     let queries: Vec<usize> = (0..n).filter(|&u| located[u] && comps.labels[u] != 0).collect();
     let found = nearest_among(&xy, metric, &targets, &queries, 1);
@@ -96,8 +97,13 @@ pub fn component_links(w: CsrRef<'_>, xy: &[f64], metric: Metric) -> Result<Vec<
     }
     let missing: Vec<usize> = (1..comps.count()).filter(|&c| best[c].is_none()).collect();
     if !missing.is_empty() {
-        let units: Vec<usize> = (0..n).filter(|&u| missing.binary_search(&(comps.labels[u] as usize)).is_ok()).collect();
-        return Err(Error::Unlocated { what: "smaller components", count: units.len(), first: units.into_iter().take(crate::error::FIRST_FEW).collect() });
+        let units: Vec<usize> =
+            (0..n).filter(|&u| missing.binary_search(&(comps.labels[u] as usize)).is_ok()).collect();
+        return Err(Error::Unlocated {
+            what: "smaller components",
+            count: units.len(),
+            first: units.into_iter().take(crate::error::FIRST_FEW).collect(),
+        });
     }
     let mut links = Vec::new();
     for &(d, i, j) in best[1..].iter().flatten() {

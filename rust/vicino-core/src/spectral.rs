@@ -151,7 +151,11 @@ fn lanczos(w: CsrRef<'_>) -> Result<SpectralRadius> {
             stalled = 0;
         }
         last = theta;
-        if residual <= LANCZOS_TOL * theta.abs() || stalled >= STALL_ITERATIONS || b <= f64::EPSILON * theta.abs() || it >= n {
+        if residual <= LANCZOS_TOL * theta.abs()
+            || stalled >= STALL_ITERATIONS
+            || b <= f64::EPSILON * theta.abs()
+            || it >= n
+        {
             return Ok(SpectralRadius { value: theta, iterations: it, method: SpectralMethod::Lanczos });
         }
         beta.push(b);
@@ -315,7 +319,11 @@ fn general(w: CsrRef<'_>) -> Result<SpectralRadius> {
             .iter()
             .map(|&i| {
                 let (c, v) = w.row(i);
-                c.iter().zip(v).filter(|(&j, _)| label[j as usize] == label[i]).map(|(&j, &x)| (local[j as usize], x)).collect()
+                c.iter()
+                    .zip(v)
+                    .filter(|(&j, _)| label[j as usize] == label[i])
+                    .map(|(&j, &x)| (local[j as usize], x))
+                    .collect()
             })
             .collect();
         if rows.iter().all(|r| r.is_empty()) {

@@ -25,12 +25,7 @@ struct Buffers {
 
 impl Buffers {
     fn new() -> Self {
-        Self {
-            coords: vec![],
-            rings: vec![0],
-            polys: vec![0],
-            units: vec![0],
-        }
+        Self { coords: vec![], rings: vec![0], polys: vec![0], units: vec![0] }
     }
     /// Add a unit made of one closed square ring with lower-left (x, y) and side s.
     fn square(&mut self, x: f64, y: f64, s: f64) {
@@ -173,13 +168,8 @@ fn rook_with_tiny_tolerance_keeps_lattice_counts() {
 // properties
 
 fn lattice_input() -> impl Strategy<Value = (usize, usize, Vec<bool>)> {
-    (1usize..8, 1usize..8).prop_flat_map(|(r, c)| {
-        (
-            Just(r),
-            Just(c),
-            proptest::collection::vec(prop::bool::weighted(0.75), r * c),
-        )
-    })
+    (1usize..8, 1usize..8)
+        .prop_flat_map(|(r, c)| (Just(r), Just(c), proptest::collection::vec(prop::bool::weighted(0.75), r * c)))
 }
 
 proptest! {

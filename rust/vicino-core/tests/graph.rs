@@ -11,14 +11,18 @@ use vicino_core::neighbors::Metric;
 use vicino_core::repair::{component_links, island_links};
 use vicino_core::{Csr, CsrRef};
 
-
 /// A non-negative n x n matrix with about `share` of entries stored.
 fn matrix(max_n: usize, share: f64, diagonal: bool) -> impl Strategy<Value = Csr> {
     (1..=max_n).prop_flat_map(move |n| {
         prop::collection::vec(prop::option::weighted(share, 1u8..4), n * n).prop_map(move |v| {
             Csr::from_rows(
                 (0..n)
-                    .map(|i| (0..n).filter(|&j| diagonal || j != i).filter_map(|j| v[i * n + j].map(|x| (j, x as f64))).collect())
+                    .map(|i| {
+                        (0..n)
+                            .filter(|&j| diagonal || j != i)
+                            .filter_map(|j| v[i * n + j].map(|x| (j, x as f64)))
+                            .collect()
+                    })
                     .collect(),
             )
         })
@@ -164,11 +168,13 @@ proptest! {
 fn results_do_not_depend_on_thread_count() {
     // a ring of 50_000 units with chords: large enough for the parallel paths
     let n = 50_000;
-    let w = Csr::from_rows((0..n).map(|i| vec![((i + 1) % n, 1.0), ((i + 7) % n, 2.0), ((i + n - 1) % n, 1.0)]).collect());
-    let run = |t: usize| {
-        rayon::ThreadPoolBuilder::new().num_threads(t).build().unwrap().install(|| {
-            (order(w.view(), 2, true).unwrap(), symmetrize(w.view(), Symmetrize::Mean), health(w.view()))
-        })
-    };
+    let w =
+        Csr::from_rows((0..n).map(|i| vec![((i + 1) % n, 1.0), ((i + 7) % n, 2.0), ((i + n - 1) % n, 1.0)]).collect());
+    let run =
+        |t: usize| {
+            rayon::ThreadPoolBuilder::new().num_threads(t).build().unwrap().install(|| {
+                (order(w.view(), 2, true).unwrap(), symmetrize(w.view(), Symmetrize::Mean), health(w.view()))
+            })
+        };
     assert_eq!(run(1), run(2)); // common practice: parallel loops must not change results
 }

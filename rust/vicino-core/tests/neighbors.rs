@@ -98,8 +98,7 @@ fn brute_knn(xy: &[f64], k: usize, metric: Metric) -> Vec<Vec<(usize, f64)>> {
     let d = dist_fn(metric);
     (0..n)
         .map(|i| {
-            let mut all: Vec<(f64, usize)> =
-                (0..n).filter(|&j| j != i).map(|j| (d(pt(xy, i), pt(xy, j)), j)).collect();
+            let mut all: Vec<(f64, usize)> = (0..n).filter(|&j| j != i).map(|j| (d(pt(xy, i), pt(xy, j)), j)).collect();
             all.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
             let mut row: Vec<(usize, f64)> = all[..k].iter().map(|&(dj, j)| (j, dj)).collect();
             row.sort_by_key(|&(j, _)| j);
@@ -115,11 +114,7 @@ fn brute_within(xy: &[f64], radius: f64, metric: Metric) -> Vec<Vec<(usize, f64)
     let d = dist_fn(metric);
     (0..n)
         .map(|i| {
-            (0..n)
-                .filter(|&j| j != i)
-                .map(|j| (j, d(pt(xy, i), pt(xy, j))))
-                .filter(|&(_, dj)| dj <= radius)
-                .collect()
+            (0..n).filter(|&j| j != i).map(|j| (j, d(pt(xy, i), pt(xy, j)))).filter(|&(_, dj)| dj <= radius).collect()
         })
         .collect()
 }
@@ -128,9 +123,7 @@ fn brute_within(xy: &[f64], radius: f64, metric: Metric) -> Vec<Vec<(usize, f64)
 fn brute_duplicate_units(xy: &[f64], metric: Metric) -> usize {
     let xy = &canonical(xy, metric)[..];
     let n = xy.len() / 2;
-    (0..n)
-        .filter(|&i| (0..n).any(|j| j != i && pt(xy, i) == pt(xy, j)))
-        .count()
+    (0..n).filter(|&i| (0..n).any(|j| j != i && pt(xy, i) == pt(xy, j))).count()
 }
 
 /// Same columns exactly; distances equal up to `tol`.
@@ -166,7 +159,8 @@ fn assert_symmetric(r: &[Vec<(usize, f64)>], what: &str) {
     for (i, row) in r.iter().enumerate() {
         for &(j, d) in row {
             let back = r[j].iter().find(|p| p.0 == i);
-            assert_eq!(back.map(|p| p.1), Some(d), "{what}: link {i}->{j} without its mirror"); // common practice: distance is symmetric
+            assert_eq!(back.map(|p| p.1), Some(d), "{what}: link {i}->{j} without its mirror");
+            // common practice: distance is symmetric
         }
     }
 }
@@ -324,7 +318,9 @@ fn knn_great_circle_clusters_poles_and_dateline() {
     let mut xy = Vec::new();
     // tight clusters (separations down to ~1 mm) near the dateline and the poles,
     // plus longitudes given as both -180 and 180, and as x and x + 360
-    for &(lon, lat, spread) in &[(179.9999, 10.0, 1e-6), (-180.0, -30.0, 1e-4), (0.0, 89.9999, 1e-5), (45.0, -90.0, 0.0), (10.0, 0.0, 1e-8)] {
+    for &(lon, lat, spread) in
+        &[(179.9999, 10.0, 1e-6), (-180.0, -30.0, 1e-4), (0.0, 89.9999, 1e-5), (45.0, -90.0, 0.0), (10.0, 0.0, 1e-8)]
+    {
         for _ in 0..30 {
             let lo = (lon + rng.range(-spread, spread)).clamp(-180.0, 360.0);
             let la = (lat + rng.range(-spread, spread)).clamp(-90.0, 90.0);
@@ -381,7 +377,7 @@ fn great_circle_one_place_spelled_two_ways() {
     assert!(nb.graph.view().data().iter().all(|&d| d == 0.0));
     let nb = within_distance(&xy, 0.0, Metric::GreatCircle).unwrap();
     assert_eq!(nb.graph.view().counts(), vec![1; 8]); // oracle: by hand
-    // in the plane these are eight different points
+                                                      // in the plane these are eight different points
     assert_eq!(k_nearest(&xy, 1, Metric::Euclidean).unwrap().duplicate_units, 0);
 }
 
@@ -469,7 +465,7 @@ fn within_great_circle_boundary_is_inclusive() {
     let g = nb.graph.view();
     let (cols, _) = g.row(6);
     assert_eq!(cols, &[4, 5, 7, 8]); // oracle: by hand
-    // the two poles copies are 0 apart up to rounding; 180/-1 and -180/1 are 2 degrees apart
+                                     // the two poles copies are 0 apart up to rounding; 180/-1 and -180/1 are 2 degrees apart
     let full = check_within(&xy, 1e-6, Metric::GreatCircle, GC_TOL, "gc pole copies");
     let n = xy.len() / 2;
     assert_eq!(full.graph.view().row(n - 4).0, &[(n - 3) as i64]); // oracle: the north pole is one place

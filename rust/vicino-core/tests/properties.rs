@@ -20,7 +20,6 @@ use vicino_core::{Csr, CsrRef};
 // ---------------------------------------------------------------------------
 // helpers
 
-
 /// oracle: brute force dense product W x.
 fn dense_mul(a: &[Vec<f64>], x: &[f64]) -> Vec<f64> {
     a.iter().map(|row| row.iter().zip(x).map(|(w, v)| w * v).sum()).collect()
@@ -40,12 +39,7 @@ fn matrix(max_n: usize, diagonal: bool) -> impl Strategy<Value = Csr> {
     (1..=max_n).prop_flat_map(move |n| {
         prop::collection::vec(prop::option::weighted(0.4, 0.01f64..10.0), n * n).prop_map(move |v| {
             let rows = (0..n)
-                .map(|i| {
-                    (0..n)
-                        .filter(|&j| diagonal || j != i)
-                        .filter_map(|j| v[i * n + j].map(|x| (j, x)))
-                        .collect()
-                })
+                .map(|i| (0..n).filter(|&j| diagonal || j != i).filter_map(|j| v[i * n + j].map(|x| (j, x))).collect())
                 .collect();
             Csr::from_rows(rows)
         })
@@ -73,7 +67,10 @@ fn jacobi_eigenvalues(mut a: Vec<Vec<f64>>) -> Vec<f64> {
     let n = a.len();
     let total: f64 = a.iter().flatten().map(|x| x * x).sum();
     for _sweep in 0..100 {
-        let off: f64 = (0..n).flat_map(|i| (0..n).filter(move |&j| j != i).map(move |j| (i, j))).map(|(i, j)| a[i][j] * a[i][j]).sum();
+        let off: f64 = (0..n)
+            .flat_map(|i| (0..n).filter(move |&j| j != i).map(move |j| (i, j)))
+            .map(|(i, j)| a[i][j] * a[i][j])
+            .sum();
         if off <= 1e-32 * total {
             break;
         }
@@ -115,9 +112,8 @@ fn jacobi_eigenvalues(mut a: Vec<Vec<f64>>) -> Vec<f64> {
 fn rho_m_matrix(a: &[Vec<f64>]) -> f64 {
     let n = a.len();
     let above = |lambda: f64| {
-        let mut m: Vec<Vec<f64>> = (0..n)
-            .map(|i| (0..n).map(|j| if i == j { lambda - a[i][j] } else { -a[i][j] }).collect())
-            .collect();
+        let mut m: Vec<Vec<f64>> =
+            (0..n).map(|i| (0..n).map(|j| if i == j { lambda - a[i][j] } else { -a[i][j] }).collect()).collect();
         for k in 0..n {
             if !(m[k][k] > 0.0) {
                 return false;
@@ -201,14 +197,12 @@ fn values(n: usize) -> impl Strategy<Value = Vec<f64>> {
 
 /// A zero-diagonal weights matrix with at least one link, with values for it.
 fn moran_case(max_n: usize) -> impl Strategy<Value = (Csr, Vec<f64>)> {
-    matrix(max_n, false)
-        .prop_filter("needs n >= 4 and a link", |w| w.n() >= 4 && w.view().nnz() > 0)
-        .prop_flat_map(|w| {
+    matrix(max_n, false).prop_filter("needs n >= 4 and a link", |w| w.n() >= 4 && w.view().nnz() > 0).prop_flat_map(
+        |w| {
             let n = w.n();
-            (Just(w), values(n).prop_filter("values must vary", |x| {
-                x.iter().any(|v| (v - x[0]).abs() > 1e-3)
-            }))
-        })
+            (Just(w), values(n).prop_filter("values must vary", |x| x.iter().any(|v| (v - x[0]).abs() > 1e-3)))
+        },
+    )
 }
 
 // ---------------------------------------------------------------------------
@@ -504,7 +498,8 @@ proptest! {
 fn jacobi_oracle_on_a_path() {
     // eigenvalues of the path P_n are 2 cos(pi j / (n + 1)) (common practice, spectral graph theory)
     for n in 2usize..=8 {
-        let a: Vec<Vec<f64>> = (0..n).map(|i| (0..n).map(|j| if i.abs_diff(j) == 1 { 1.0 } else { 0.0 }).collect()).collect();
+        let a: Vec<Vec<f64>> =
+            (0..n).map(|i| (0..n).map(|j| if i.abs_diff(j) == 1 { 1.0 } else { 0.0 }).collect()).collect();
         let mut ev = jacobi_eigenvalues(a.clone());
         ev.sort_by(f64::total_cmp);
         for (j, e) in ev.iter().rev().enumerate() {
@@ -529,7 +524,9 @@ fn spectral_radius_of_large_grid_graph() {
     assert!(close(got, want, 1e-10), "got {got} want {want}");
     // a long path: 2 cos(pi / (n + 1))
     let n = 2000usize;
-    let path = Csr::from_rows((0..n).map(|i| [i.wrapping_sub(1), i + 1].into_iter().filter(|&j| j < n).map(|j| (j, 1.0)).collect()).collect());
+    let path = Csr::from_rows(
+        (0..n).map(|i| [i.wrapping_sub(1), i + 1].into_iter().filter(|&j| j < n).map(|j| (j, 1.0)).collect()).collect(),
+    );
     let got = spectral_radius(path.view()).unwrap().value;
     assert!(close(got, 2.0 * (pi / (n + 1) as f64).cos(), 1e-10), "path: {got}");
 }
@@ -749,10 +746,17 @@ proptest! {
 fn moran_refuses_self_weights_whose_moments_differ() {
     // exact permutation mean of z'Wz is m2 [tr W - (S0 - tr W) / (n - 1)] / n,
     // so E[I] = [tr W - (S0 - tr W) / (n - 1)] / S0 (Cliff and Ord 1981 with w_ii kept)
-    let w = Csr::from_rows(vec![vec![(0, 1.0), (1, 1.0)], vec![(0, 1.0), (2, 1.0)], vec![(1, 1.0), (3, 1.0)], vec![(2, 1.0), (3, 2.0)], vec![(0, 1.0)]]);
+    let w = Csr::from_rows(vec![
+        vec![(0, 1.0), (1, 1.0)],
+        vec![(0, 1.0), (2, 1.0)],
+        vec![(1, 1.0), (3, 1.0)],
+        vec![(2, 1.0), (3, 2.0)],
+        vec![(0, 1.0)],
+    ]);
     let x = [1.0, 4.0, 2.0, 8.0, 3.0];
     let a = dense(w.view());
-    let all: Vec<f64> = all_permutations(5).iter().map(|p| moran_dense(&a, &p.iter().map(|&i| x[i]).collect::<Vec<_>>())).collect();
+    let all: Vec<f64> =
+        all_permutations(5).iter().map(|p| moran_dense(&a, &p.iter().map(|&i| x[i]).collect::<Vec<_>>())).collect();
     let exact_mean = all.iter().sum::<f64>() / all.len() as f64; // oracle: enumeration of all 5! orders
     let s0: f64 = a.iter().flatten().sum();
     let tr: f64 = (0..5).map(|i| a[i][i]).sum();
@@ -795,12 +799,18 @@ fn moran_permutations_do_not_depend_on_threads() {
         let want: f64 = c.iter().zip(d).map(|(&j, &wij)| wij * x[j as usize]).sum();
         assert!((one.1[i] - want).abs() <= 1e-12 * want.abs().max(1.0));
     }
-    assert!(close(one.2.statistic, {
-        let mean = x.iter().sum::<f64>() / n as f64;
-        let z: Vec<f64> = x.iter().map(|v| v - mean).collect();
-        let num: f64 = (0..n).map(|i| z[i] * v.row(i).0.iter().zip(v.row(i).1).map(|(&j, &wij)| wij * z[j as usize]).sum::<f64>()).sum();
-        n as f64 / v.data().iter().sum::<f64>() * num / z.iter().map(|q| q * q).sum::<f64>()
-    }, 1e-10)); // Moran (1950), sparse brute force
+    assert!(close(
+        one.2.statistic,
+        {
+            let mean = x.iter().sum::<f64>() / n as f64;
+            let z: Vec<f64> = x.iter().map(|v| v - mean).collect();
+            let num: f64 = (0..n)
+                .map(|i| z[i] * v.row(i).0.iter().zip(v.row(i).1).map(|(&j, &wij)| wij * z[j as usize]).sum::<f64>())
+                .sum();
+            n as f64 / v.data().iter().sum::<f64>() * num / z.iter().map(|q| q * q).sum::<f64>()
+        },
+        1e-10
+    )); // Moran (1950), sparse brute force
 }
 
 #[test]
@@ -815,13 +825,22 @@ fn moran_seeds_give_different_draws() {
 #[test]
 fn moran_errors() {
     let ring = |n: usize| Csr::from_rows((0..n).map(|i| vec![((i + 1) % n, 1.0), ((i + n - 1) % n, 1.0)]).collect());
-    assert!(matches!(moran(ring(3).view(), &[1.0, 2.0, 3.0], 0, 1, Alternative::TwoSided), Err(Error::TooFewUnits { need: 4, n: 3, .. })));
+    assert!(matches!(
+        moran(ring(3).view(), &[1.0, 2.0, 3.0], 0, 1, Alternative::TwoSided),
+        Err(Error::TooFewUnits { need: 4, n: 3, .. })
+    ));
     let w = ring(5);
     assert_eq!(moran(w.view(), &[1.0; 5], 0, 1, Alternative::TwoSided).unwrap_err(), Error::ConstantValues);
     assert!(matches!(moran(w.view(), &[1.0; 4], 0, 1, Alternative::TwoSided), Err(Error::LengthMismatch { .. })));
-    assert!(matches!(moran(w.view(), &[1.0, 2.0, f64::NAN, 0.0, 1.0], 0, 1, Alternative::TwoSided), Err(Error::NonFiniteValues { count: 1, .. })));
+    assert!(matches!(
+        moran(w.view(), &[1.0, 2.0, f64::NAN, 0.0, 1.0], 0, 1, Alternative::TwoSided),
+        Err(Error::NonFiniteValues { count: 1, .. })
+    ));
     let empty = Csr::from_rows(vec![vec![]; 5]);
-    assert!(matches!(moran(empty.view(), &[1.0, 2.0, 3.0, 4.0, 5.0], 0, 1, Alternative::TwoSided), Err(Error::NoWeight { .. })));
+    assert!(matches!(
+        moran(empty.view(), &[1.0, 2.0, 3.0, 4.0, 5.0], 0, 1, Alternative::TwoSided),
+        Err(Error::NoWeight { .. })
+    ));
     // alternating values on an even ring: every link joins unlike values, I = -1
     let m = moran(ring(6).view(), &[1.0, 0.0, 1.0, 0.0, 1.0, 0.0], 0, 1, Alternative::TwoSided).unwrap();
     assert!((m.statistic + 1.0).abs() < 1e-12); // oracle: by hand, z'Wz = -z'z S0 / n

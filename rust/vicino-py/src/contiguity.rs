@@ -68,7 +68,9 @@ pub fn contiguity<'py>(
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let out = with_polygon_input(py, polygons, |p| core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?))?;
+    let out = with_polygon_input(py, polygons, |p| {
+        core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?)
+    })?;
     Ok((csr_out(py, out.graph), out.perimeter.into_pyarray(py), out.empty))
 }
 
@@ -82,7 +84,8 @@ pub fn cliff_ord<'py>(
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let (w, info) =
-        with_polygon_input(py, polygons, |p| core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?))?;
+    let (w, info) = with_polygon_input(py, polygons, |p| {
+        core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?)
+    })?;
     Ok((csr_out(py, w), info.perimeter.into_pyarray(py), info.empty))
 }

@@ -12,17 +12,34 @@ use vicino_core::Error;
 fn class_name(e: &Error) -> &'static str {
     use Error::*;
     match e {
-        Empty | OddCoordinates { .. } | InvalidGeometry { .. } | NonFiniteCoordinate { .. } | CoordinateTooLarge { .. }
-        | LatitudeOutOfRange { .. } | LongitudeOutOfRange { .. } => "InvalidInputError",
-        InvalidK { .. } | InvalidRadius { .. } | UnknownMetric { .. } | UnknownStandardization { .. }
-        | UnknownAlternative { .. } | TooFewUnits { .. } | UnknownRule { .. } | InvalidTolerance { .. }
-        | CoincidentCentroids { .. } | InvalidOrder { .. } | UnknownOption { .. } => "InvalidParameterError",
+        Empty
+        | OddCoordinates { .. }
+        | InvalidGeometry { .. }
+        | NonFiniteCoordinate { .. }
+        | CoordinateTooLarge { .. }
+        | LatitudeOutOfRange { .. }
+        | LongitudeOutOfRange { .. } => "InvalidInputError",
+        InvalidK { .. }
+        | InvalidRadius { .. }
+        | UnknownMetric { .. }
+        | UnknownStandardization { .. }
+        | UnknownAlternative { .. }
+        | TooFewUnits { .. }
+        | UnknownRule { .. }
+        | InvalidTolerance { .. }
+        | CoincidentCentroids { .. }
+        | InvalidOrder { .. }
+        | UnknownOption { .. } => "InvalidParameterError",
         PositionOutOfRange { .. } | RepeatedPosition { .. } => "IdError",
         LinkExists { .. } => "InvalidMatrixError",
         Unlocated { .. } => "InvalidInputError",
         Islands { .. } => "IslandError",
-        NoWeight { .. } | InvalidMatrix { .. } | NotSquare { .. } | NonFiniteWeight { .. }
-        | NegativeWeight { .. } | SelfLinks { .. } => "InvalidMatrixError",
+        NoWeight { .. }
+        | InvalidMatrix { .. }
+        | NotSquare { .. }
+        | NonFiniteWeight { .. }
+        | NegativeWeight { .. }
+        | SelfLinks { .. } => "InvalidMatrixError",
         LengthMismatch { .. } | NonFiniteValues { .. } | ConstantValues => "InvalidValuesError",
         NotConverged { .. } => "ConvergenceError",
     }
@@ -74,7 +91,8 @@ where
                 .map(|s| s.to_string())
                 .or_else(|| panic.downcast_ref::<String>().cloned())
                 .unwrap_or_else(|| "unknown".into());
-            let msg = format!("internal error in vicino's core ({what}); please report it with the input that caused it");
+            let msg =
+                format!("internal error in vicino's core ({what}); please report it with the input that caused it");
             Err(match py.import("vicino.errors").and_then(|m| m.getattr("InternalError")) {
                 Ok(cls) => match cls.call1((msg.clone(),)) {
                     Ok(inst) => PyErr::from_value(inst),

@@ -65,7 +65,9 @@ pub fn select<'py>(py: Python<'py>, w: CsrArgs<'py>, keep: PyReadonlyArray1<'py,
         let n = w.n();
         let keep: Vec<usize> = keep
             .iter()
-            .map(|&p| usize::try_from(p).map_err(|_| vicino_core::Error::PositionOutOfRange { position: usize::MAX, n }))
+            .map(|&p| {
+                usize::try_from(p).map_err(|_| vicino_core::Error::PositionOutOfRange { position: usize::MAX, n })
+            })
             .collect::<Result<_, _>>()?;
         graph::select(w, &keep)
     })?;
@@ -75,7 +77,12 @@ pub fn select<'py>(py: Python<'py>, w: CsrArgs<'py>, keep: PyReadonlyArray1<'py,
 type Repaired<'py> = (CsrOut<'py>, Bound<'py, PyArray1<i64>>, Vec<(usize, usize, f64)>);
 
 /// Add the links a repair found, each weighing `weight`.
-fn repaired<'py>(py: Python<'py>, w: vicino_core::CsrRef<'_>, links: Vec<(usize, usize, f64)>, weight: f64) -> PyResult<Repaired<'py>> {
+fn repaired<'py>(
+    py: Python<'py>,
+    w: vicino_core::CsrRef<'_>,
+    links: Vec<(usize, usize, f64)>,
+    weight: f64,
+) -> PyResult<Repaired<'py>> {
     let new: Vec<(usize, usize, f64)> = links.iter().map(|&(i, j, _)| (i, j, weight)).collect();
     let (m, src) = run(py, || graph::add_links(w, new))?;
     Ok((csr_out(py, m), src.into_pyarray(py), links))

@@ -36,10 +36,7 @@ pub fn standardize<'py>(
 
 /// Spectral radius: (value, iterations, method name).
 #[pyfunction]
-pub fn spectral_radius<'py>(
-    py: Python<'py>,
-    w: CsrArgs<'py>,
-) -> PyResult<(f64, usize, &'static str)> {
+pub fn spectral_radius<'py>(py: Python<'py>, w: CsrArgs<'py>) -> PyResult<(f64, usize, &'static str)> {
     let w = w.view(py)?;
     let r = run(py, || spectral::spectral_radius(w))?;
     let name = match r.method {

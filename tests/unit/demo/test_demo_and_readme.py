@@ -20,8 +20,17 @@ ROOT = Path(__file__).resolve().parents[3]
 def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     tables = demo.run(tmp_path, permutations=99)
     out = capsys.readouterr().out
-    for name in ("settlements", "neighbour_counts", "candidates", "contiguity", "district_counts", "repairs",
-                 "audit", "lags", "moran"):
+    for name in (
+        "settlements",
+        "neighbour_counts",
+        "candidates",
+        "contiguity",
+        "district_counts",
+        "repairs",
+        "audit",
+        "lags",
+        "moran",
+    ):
         assert (tmp_path / f"{name}.csv").stat().st_size > 0
     places = tables["settlements"]
     # reference: numpy brute force on the generated coordinates; a settlement is an
@@ -36,8 +45,15 @@ def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     # reference: the k-nearest candidates leave nobody out (k < n)  # common practice
     assert int(tables["candidates"].loc["6 nearest", "islands"]) == 0
     csv = pd.read_csv(tmp_path / "moran.csv", index_col=0)
-    assert list(csv.index) == ["6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord",
-                               "queen, repaired"]
+    assert list(csv.index) == [
+        "6 nearest",
+        "10 nearest",
+        "within 15 km",
+        "queen",
+        "rook",
+        "Cliff-Ord",
+        "queen, repaired",
+    ]
     assert "Cautions" in out and "not evidence of a cause" in out
     assert "A repair adds links by assumption" in out
     # the report stays readable in a terminal; the audit's own first line is printed as
@@ -78,7 +94,12 @@ def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
     for rule, ref in (("queen", queen), ("rook", rook)):
         row = summary.loc[rule]
         # reference: numpy summaries of the shapely counts
-        assert (row["links"], row["min"], row["max"], row["islands"]) == (ref.sum(), ref.min(), ref.max(), (ref == 0).sum())
+        assert (row["links"], row["min"], row["max"], row["islands"]) == (
+            ref.sum(),
+            ref.min(),
+            ref.max(),
+            (ref == 0).sum(),
+        )
         assert row["mean"] == pytest.approx(ref.mean(), abs=0.005)
     # the survey grid makes some districts meet only at a corner, so the rules differ
     assert queen.sum() > rook.sum()  # reference: the shapely counts above
@@ -150,8 +171,9 @@ def _audit_rows(out: str) -> dict[str, list[str]]:
     """The compact audit table of section 3, as {weights: the words of its row}."""
     block = out.split("3. Audit of every candidate", 1)[1].split("4. Repairing", 1)[0]
     names = ["6 nearest", "10 nearest", "within 15 km", "queen", "rook", "Cliff-Ord"]
-    return {name: line[len(name):].split() for line in block.splitlines() for name in names
-            if line.startswith(name + " ")}
+    return {
+        name: line[len(name) :].split() for line in block.splitlines() for name in names if line.startswith(name + " ")
+    }
 
 
 def test_demo_audits_every_candidate(tmp_path, capsys):
@@ -291,8 +313,12 @@ def test_demo_skips_the_districts_without_shapely(tmp_path, capsys, monkeypatch)
 
 
 def test_command_line_demo_runs(tmp_path):
-    r = subprocess.run([sys.executable, "-m", "vicino", "demo", "--out", str(tmp_path), "--permutations", "19"],
-                       capture_output=True, text=True, timeout=120)
+    r = subprocess.run(
+        [sys.executable, "-m", "vicino", "demo", "--out", str(tmp_path), "--permutations", "19"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert r.returncode == 0, r.stderr
     assert "Moran's I" in r.stdout and (tmp_path / "moran.csv").exists()
 
@@ -356,7 +382,7 @@ def test_readme_audit_section_runs_and_its_shown_output_is_true():
     # reference: the audit printed in the README is what print(report) shows
     at = code.index("print(report)")
     shown = []
-    for line in code[at + 1:]:
+    for line in code[at + 1 :]:
         if not line.startswith("# "):
             break
         shown.append(line[2:])

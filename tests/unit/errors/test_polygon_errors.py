@@ -67,9 +67,15 @@ def test_non_finite_in_a_hole_names_the_id(build):
 # geometry types
 # ---------------------------------------------------------------------------
 @pytest.mark.parametrize("build", BUILDERS)
-@pytest.mark.parametrize("wrong", [Point(0, 0), LineString([(0, 0), (1, 1)]),
-                                   shapely.MultiPoint([(0, 0), (1, 1)]),
-                                   shapely.GeometryCollection([box(0, 0, 1, 1)])])
+@pytest.mark.parametrize(
+    "wrong",
+    [
+        Point(0, 0),
+        LineString([(0, 0), (1, 1)]),
+        shapely.MultiPoint([(0, 0), (1, 1)]),
+        shapely.GeometryCollection([box(0, 0, 1, 1)]),
+    ],
+)
 def test_non_polygon_geometries_name_the_ids(build, wrong):
     geoms = [box(0, 0, 1, 1), wrong, box(2, 0, 3, 1)]
     with pytest.raises(vicino.InvalidInputError, match=r"not polygons.*'middle'") as err:
@@ -190,7 +196,9 @@ def test_unknown_metric():
 
 
 @pytest.mark.parametrize("build", BUILDERS)
-@pytest.mark.parametrize("tol,shown", [(-1e-9, r"-(1e-0?9|0\.000000001)"), (-1, "-1"), (np.nan, "NaN"), (np.inf, "inf")])
+@pytest.mark.parametrize(
+    "tol,shown", [(-1e-9, r"-(1e-0?9|0\.000000001)"), (-1, "-1"), (np.nan, "NaN"), (np.inf, "inf")]
+)
 def test_bad_tolerance(build, tol, shown):
     with pytest.raises(vicino.InvalidParameterError, match=rf"tolerance = {shown} is not usable.*>= 0") as err:
         build(row_of_squares(), tolerance=tol)

@@ -119,12 +119,15 @@ def test_bad_seed(w, x, seed):
         vicino.moran(x, w, seed=seed)
 
 
-@pytest.mark.parametrize("bad", [
-    np.eye(20),
-    sp.csr_array(np.eye(20)),
-    pd.DataFrame(np.eye(20)),
-    None,
-])
+@pytest.mark.parametrize(
+    "bad",
+    [
+        np.eye(20),
+        sp.csr_array(np.eye(20)),
+        pd.DataFrame(np.eye(20)),
+        None,
+    ],
+)
 def test_weights_not_a_weights_object(x, bad):
     with pytest.raises(vicino.InvalidTypeError) as info:
         vicino.moran(x, bad)

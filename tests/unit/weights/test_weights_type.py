@@ -191,9 +191,7 @@ def test_to_edges_columns_and_values(rng):
     assert list(e.columns) == ["focal", "neighbor", "weight", "distance"]
     assert len(e) == w.nnz == 200  # reference: 50 units x k = 4
     dist, idx = cKDTree(xy).query(xy, k=5)  # reference: scipy.spatial.cKDTree
-    expected = {
-        (ids[i], ids[j]): dist[i, c + 1] for i in range(50) for c, j in enumerate(idx[i, 1:])
-    }
+    expected = {(ids[i], ids[j]): dist[i, c + 1] for i in range(50) for c, j in enumerate(idx[i, 1:])}
     got = {(f, nb): d for f, nb, d in zip(e["focal"], e["neighbor"], e["distance"])}
     assert set(got) == set(expected)  # reference: scipy.spatial.cKDTree
     for key, d in expected.items():
@@ -259,9 +257,7 @@ def test_recipe_records_steps(knn):
     assert r.recipe[2].params == {"method": "binary"}  # reference: arguments given
     assert len(w.recipe) == 1  # the original is unchanged
     assert "k_nearest(k=3, metric='euclidean') -> standardize(method='row')" in repr(r)
-    kept = vicino.within_distance(np.random.default_rng(0).random((20, 2)), 0.01).standardize(
-        "row", islands="keep"
-    )
+    kept = vicino.within_distance(np.random.default_rng(0).random((20, 2)), 0.01).standardize("row", islands="keep")
     assert kept.recipe[-1].params == {"method": "row", "islands": "keep"}  # reference: arguments given
     m = vicino.from_matrix(np.eye(3)[::-1])
     assert m.recipe == (vicino.Step("from_matrix", {"n": 3}),)  # reference: input shape

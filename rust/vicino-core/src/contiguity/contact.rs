@@ -62,7 +62,10 @@ pub fn meet_exact(a0: P, a1: P, b0: P, b1: P) -> Meet {
         let (t0, t1) = (param(a0, a1, b0), param(a0, a1, b1));
         let (lo, hi) = (t0.min(t1).max(0.0), t0.max(t1).min(1.0));
         // decide overlap by exact coordinates, not by the rounded parameters
-        let any = on_collinear(a0, a1, b0) || on_collinear(a0, a1, b1) || on_collinear(b0, b1, a0) || on_collinear(b0, b1, a1);
+        let any = on_collinear(a0, a1, b0)
+            || on_collinear(a0, a1, b1)
+            || on_collinear(b0, b1, a0)
+            || on_collinear(b0, b1, a1);
         if !any {
             return Meet::Apart;
         }

@@ -56,7 +56,10 @@ impl<'a> Polygons<'a> {
                     }
                 }
                 if !ring.is_empty() && ring.len() < 3 {
-                    return Err(Error::InvalidGeometry { unit: u, reason: format!("a ring has only {} points", ring.len()) });
+                    return Err(Error::InvalidGeometry {
+                        unit: u,
+                        reason: format!("a ring has only {} points", ring.len()),
+                    });
                 }
             }
         }
@@ -83,7 +86,13 @@ impl<'a> Polygons<'a> {
         self.rings_of(u).flat_map(|(_, ring)| {
             let closed = ring.first() == ring.last();
             let m = ring.len();
-            let count = if m < 2 { 0 } else if closed { m - 1 } else { m };
+            let count = if m < 2 {
+                0
+            } else if closed {
+                m - 1
+            } else {
+                m
+            };
             (0..count).map(move |k| (ring[k], ring[(k + 1) % m])).filter(|(a, b)| a != b)
         })
     }

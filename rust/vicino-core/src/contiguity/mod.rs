@@ -35,8 +35,8 @@ use crate::csr::Csr;
 use crate::error::{Error, Result};
 use crate::neighbors::metric::{haversine_km, Metric};
 use contact::{coincident_interval, meet_exact, near, union_length, Meet};
-pub use geometry::Polygons;
 use geometry::BBox;
+pub use geometry::Polygons;
 use rayon::prelude::*;
 use rstar::primitives::{GeomWithData, Rectangle};
 use rstar::{RTree, AABB};
@@ -152,7 +152,15 @@ struct Scratch {
 
 /// Contact of units i and j: None when they are not neighbours under queen,
 /// else (rook, shared length).
-fn pair(p: &Polygons<'_>, i: usize, j: usize, boxes: &[Option<BBox>], tol: f64, metric: Metric, s: &mut Scratch) -> Option<(bool, f64)> {
+fn pair(
+    p: &Polygons<'_>,
+    i: usize,
+    j: usize,
+    boxes: &[Option<BBox>],
+    tol: f64,
+    metric: Metric,
+    s: &mut Scratch,
+) -> Option<(bool, f64)> {
     let (bi, bj) = (boxes[i]?, boxes[j]?);
     let (wi, wj) = (widen(bi, tol), widen(bj, tol));
     s.si.clear();
@@ -270,7 +278,11 @@ impl Candidates {
                             let Some(bj) = boxes[j] else { continue };
                             // report the pair only from the cell that holds the
                             // low corner of the overlap of the two boxes
-                            if j > i && overlap(&bi, &bj) && g.col(bi[0].max(bj[0])) == c && g.row(bi[1].max(bj[1])) == r {
+                            if j > i
+                                && overlap(&bi, &bj)
+                                && g.col(bi[0].max(bj[0])) == c
+                                && g.row(bi[1].max(bj[1])) == r
+                            {
                                 out.push(j);
                             }
                         }
@@ -427,7 +439,13 @@ pub fn centroids(p: &Polygons<'_>) -> Vec<f64> {
 /// rook neighbours, with b_ij the shared border length, p_i the perimeter
 /// of i (so b_ij / p_i is the share of i's boundary shared with j) and d_ij
 /// the distance between the centroids. Asymmetric in general.
-pub fn cliff_ord(p: &Polygons<'_>, border_power: f64, distance_power: f64, tolerance: f64, metric: Metric) -> Result<(Csr, Contiguity)> {
+pub fn cliff_ord(
+    p: &Polygons<'_>,
+    border_power: f64,
+    distance_power: f64,
+    tolerance: f64,
+    metric: Metric,
+) -> Result<(Csr, Contiguity)> {
     let c = contiguity(p, Rule::Rook, tolerance, metric)?;
     let n = p.n();
     let centres: Vec<Option<[f64; 2]>> = (0..n).into_par_iter().map(|u| centroid(p, u)).collect();

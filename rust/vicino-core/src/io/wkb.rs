@@ -126,7 +126,11 @@ impl<'a> Reader<'a> {
 /// Decode n units from one byte buffer; unit u occupies bytes
 /// `offsets[u]..offsets[u + 1]`.
 pub fn decode_polygons(bytes: &[u8], offsets: &[i64]) -> Result<PolygonBuffers> {
-    if offsets.is_empty() || offsets[0] != 0 || offsets[offsets.len() - 1] as usize != bytes.len() || offsets.windows(2).any(|w| w[0] > w[1]) {
+    if offsets.is_empty()
+        || offsets[0] != 0
+        || offsets[offsets.len() - 1] as usize != bytes.len()
+        || offsets.windows(2).any(|w| w[0] > w[1])
+    {
         return Err(Error::InvalidMatrix { reason: "WKB offsets must rise from 0 to the number of bytes".into() });
     }
     let n = offsets.len() - 1;
@@ -195,7 +199,10 @@ mod tests {
         point.extend(1u32.to_le_bytes());
         point.extend(0f64.to_le_bytes());
         point.extend(0f64.to_le_bytes());
-        assert!(matches!(decode_polygons(&point, &[0, point.len() as i64]), Err(Error::InvalidGeometry { unit: 0, .. })));
+        assert!(matches!(
+            decode_polygons(&point, &[0, point.len() as i64]),
+            Err(Error::InvalidGeometry { unit: 0, .. })
+        ));
         assert!(decode_polygons(&a[..10], &[0, 10]).is_err());
     }
 }

@@ -48,8 +48,8 @@ struct Space<'a, const D: usize> {
 impl<'a, const D: usize> Space<'a, D> {
     fn new(xy: &'a [[f64; 2]], metric: Metric, to_tree: impl Fn([f64; 2]) -> [f64; D] + Sync) -> Self {
         let pts: Vec<[f64; D]> = xy.par_iter().map(|&p| to_tree(p)).collect();
-        let tree = ImmutableKdTree::<f64, D>::new_from_slice_parallel(&pts)
-            .expect("finite coordinates always build a tree");
+        let tree =
+            ImmutableKdTree::<f64, D>::new_from_slice_parallel(&pts).expect("finite coordinates always build a tree");
         Self { tree, pts, xy, metric }
     }
 
@@ -90,9 +90,7 @@ impl<'a, const D: usize> Space<'a, D> {
     fn clearly_less(&self, a: f64, b: f64) -> bool {
         match self.metric {
             Metric::Euclidean => b > a * (1.0 + 4.0 * SLACK),
-            Metric::GreatCircle => {
-                metric::chord_for_km(b) > (metric::chord_for_km(a) + 2e-12) * (1.0 + 4.0 * SLACK)
-            }
+            Metric::GreatCircle => metric::chord_for_km(b) > (metric::chord_for_km(a) + 2e-12) * (1.0 + 4.0 * SLACK),
         }
     }
 
@@ -112,11 +110,8 @@ impl<'a, const D: usize> Space<'a, D> {
         if m == 0 || k == 0 {
             return;
         }
-        let found = self
-            .tree
-            .query(q)
-            .nearest_n::<SquaredEuclidean<f64>>(NonZeroUsize::new(m).expect("m >= 1"))
-            .execute();
+        let found =
+            self.tree.query(q).nearest_n::<SquaredEuclidean<f64>>(NonZeroUsize::new(m).expect("m >= 1")).execute();
         buf.extend(found.iter().filter(|r| r.item as usize != skip).map(|r| {
             let j = r.item as usize;
             (self.metric.distance(qxy, self.xy[j]), j)
@@ -372,7 +367,13 @@ pub fn within_distance(xy: &[f64], radius: f64, metric: Metric) -> Result<Neighb
 /// excluded, sorted by (distance, position); positions refer to `xy`
 /// (interleaved, already checked and canonical). `targets` must be
 /// increasing. Ties go to the lower position, as in [`k_nearest`].
-pub fn nearest_among(xy: &[f64], metric: Metric, targets: &[usize], queries: &[usize], k: usize) -> Vec<Vec<(f64, usize)>> {
+pub fn nearest_among(
+    xy: &[f64],
+    metric: Metric,
+    targets: &[usize],
+    queries: &[usize],
+    k: usize,
+) -> Vec<Vec<(f64, usize)>> {
     let all = as_pairs(xy);
     debug_assert!(targets.windows(2).all(|p| p[0] < p[1]));
     let sub: Vec<[f64; 2]> = targets.iter().map(|&t| all[t]).collect();

@@ -90,7 +90,8 @@ pub fn permutation_summary(draws: Vec<f64>, observed: f64, centre: f64, alt: Alt
         .count();
     let r = draws.len() as f64;
     let mean = draws.iter().sum::<f64>() / r;
-    let var = if draws.len() > 1 { draws.iter().map(|d| (d - mean) * (d - mean)).sum::<f64>() / (r - 1.0) } else { f64::NAN };
+    let var =
+        if draws.len() > 1 { draws.iter().map(|d| (d - mean) * (d - mean)).sum::<f64>() / (r - 1.0) } else { f64::NAN };
     let std = var.sqrt();
     Permutation { extreme, p_value: (extreme as f64 + 1.0) / (r + 1.0), mean, std, z: (observed - mean) / std, draws }
 }
@@ -171,10 +172,16 @@ pub fn moran(w: CsrRef<'_>, x: &[f64], permutations: usize, seed: u64, alt: Alte
         - expected * expected;
     let analytic = |v: f64| Analytic { variance: v, z: (statistic - expected) / v.sqrt() };
     let permutation = (permutations > 0).then(|| {
-        let draws = permuted(&y, permutations, seed, |yp| stat(&q, yp), |a, b| {
-            let (u, v) = q.eval_local_pair(a, b);
-            (scale * u, scale * v)
-        });
+        let draws = permuted(
+            &y,
+            permutations,
+            seed,
+            |yp| stat(&q, yp),
+            |a, b| {
+                let (u, v) = q.eval_local_pair(a, b);
+                (scale * u, scale * v)
+            },
+        );
         permutation_summary(draws, statistic, expected, alt)
     });
     Ok(Moran {

@@ -162,8 +162,17 @@ mod tests {
 
     #[test]
     fn pair_equals_single_bit_for_bit() {
-        let rows: Vec<Vec<(usize, f64)>> = (0..40).map(|i| vec![((i * 7 + 3) % 40, 0.3), ((i * 11 + 1) % 40, 1.7)]).collect();
-        let w = Csr::from_rows(rows.into_iter().map(|r| { let mut r = r; r.dedup_by_key(|e| e.0); r }).collect());
+        let rows: Vec<Vec<(usize, f64)>> =
+            (0..40).map(|i| vec![((i * 7 + 3) % 40, 0.3), ((i * 11 + 1) % 40, 1.7)]).collect();
+        let w = Csr::from_rows(
+            rows.into_iter()
+                .map(|r| {
+                    let mut r = r;
+                    r.dedup_by_key(|e| e.0);
+                    r
+                })
+                .collect(),
+        );
         let (_, q) = weight_sums(w.view());
         let y: Vec<f64> = (0..40).map(|i| (i as f64 * 0.37).sin()).collect();
         let x: Vec<f64> = (0..40).map(|i| (i as f64 * 1.3).cos()).collect();

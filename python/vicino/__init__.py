@@ -7,6 +7,9 @@ combine them, standardize them, compute lags with
 :meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`.
 """
 
+from importlib.metadata import PackageNotFoundError, version
+
+from ._gateway import get_memory_limit, set_memory_limit
 from .audit import Audit, Components, Finding
 from .build import EARTH_RADIUS_KM, cliff_ord, contiguity, from_matrix, k_nearest, within_distance
 from .errors import (
@@ -21,12 +24,16 @@ from .errors import (
     InvalidTypeError,
     InvalidValuesError,
     IslandError,
+    TooLargeError,
     VicinoError,
 )
 from .stats import AnalyticInference, MoranResult, PermutationInference, moran
 from .weights import Step, Weights
 
-__version__ = "0.1.0"
+try:
+    __version__ = version("vicino")
+except PackageNotFoundError:  # pragma: no cover - running from a source tree without an install
+    __version__ = "0+unknown"
 
 __all__ = [
     "EARTH_RADIUS_KM",
@@ -48,12 +55,15 @@ __all__ = [
     "MoranResult",
     "PermutationInference",
     "Step",
+    "TooLargeError",
     "VicinoError",
     "Weights",
     "cliff_ord",
     "contiguity",
     "from_matrix",
+    "get_memory_limit",
     "k_nearest",
     "moran",
+    "set_memory_limit",
     "within_distance",
 ]

@@ -13,7 +13,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from ._util import examples
+from typing import Any
+
+from ._ids import examples
 
 LEVELS = ("problem", "warning", "note", "ok")
 DENSE_SHARE = 0.5  # a warning when units neighbour more than this share of all others, on average
@@ -105,11 +107,25 @@ class Audit:
         Every check with its level: problem, warning, note, or ok.
     """
 
-    def __init__(self, weights, facts: dict):
-        ids = weights.ids
-        counts = np.diff(weights._indptr)
-        self.n = weights.n
-        self.links = weights.nnz
+    def __init__(
+        self,
+        *,
+        ids: pd.Index,
+        counts: np.ndarray,
+        stored: np.ndarray,
+        facts: Any,
+        density: float,
+        duplicates: int | None,
+        origin: Any,
+    ) -> None:
+        """Build the report from what :meth:`Weights.audit` hands over.
+
+        ``counts`` are the links of each unit to other units, ``stored`` its
+        stored entries (self-links included), ``facts`` the core's health
+        facts, ``origin`` the first step of the recipe (or None).
+        """
+        self.n = len(ids)
+        self.links = int(stored.sum())
         self.counts = pd.Series(counts, index=ids, name="neighbors")
         self.summary = pd.Series(
             {"min": counts.min(), "median": float(np.median(counts)), "mean": counts.mean(), "max": counts.max()},
@@ -117,30 +133,41 @@ class Audit:
         )
         self.histogram = _histogram(counts)
         self.islands = ids[counts == 0]
-        in_counts = np.asarray(facts["in_counts"])
+        in_counts = np.asarray(facts.in_counts)
         self.zero_columns = ids[in_counts == 0]
-        labels = np.asarray(facts["labels"])
-        sizes = np.asarray(facts["sizes"], dtype=np.int64)
+        labels = np.asarray(facts.labels)
+        sizes = np.asarray(facts.sizes, dtype=np.int64)
         self.components = Components(len(sizes), sizes, pd.Series(labels, index=ids, name="component"))
-        worst = facts["max_asymmetry"]
+        worst = facts.max_asymmetry
         self.max_asymmetry = None if worst is None else (float(worst[0]), ids[worst[1]], ids[worst[2]])
         self.symmetric = worst is None
-        self.one_way_links = int(facts["one_way"])
-        self.self_links = int(facts["self_links"])
-        self.density = weights.density
-        self.duplicate_locations = weights._duplicates
-        self._origin = weights.recipe[0] if weights.recipe else None
+        self.one_way_links = int(facts.one_way)
+        self.self_links = int(facts.self_links)
+        self.bad_weights = int(facts.bad_weights)
+        self.density = density
+        self.duplicate_locations = duplicates
+        self._self_only = int((stored > 0)[counts == 0].sum())
+        self._origin = origin
         self.findings = tuple(self._checks(ids, counts, in_counts))
 
     # ---- the checks ----------------------------------------------------
-    def _checks(self, ids, counts, in_counts):
+    def _checks(self, ids: pd.Index, counts: np.ndarray, in_counts: np.ndarray) -> Any:
         n = self.n
+        if self.bad_weights:
+            yield Finding(
+                "problem",
+                "weights",
+                f"{self.bad_weights} stored weight(s) are zero, negative or not finite; a stored entry is a link "
+                "and must weigh more than 0: rebuild the weights with a vicino builder or from_matrix",
+            )
         if len(self.islands):
+            alone = f" ({self._self_only} of them linked only to themselves)" if self._self_only else ""
             yield Finding(
                 "problem",
                 "islands",
                 (
-                    f"{len(self.islands)} unit(s) have no neighbours: ids {examples(self.islands)}. Their lag is 0, "
+                    f"{len(self.islands)} unit(s) have no neighbours{alone}: ids {examples(self.islands)}. "
+                    f"Their lag is {'0 or only their own value' if self._self_only else '0'}, "
                     "row standardization and most models cannot use them. Link them with "
                     "connect_islands(locations), remove them with drop_islands(), or choose weights that reach them "
                     "(k_nearest always does)."

@@ -3,30 +3,33 @@
 from __future__ import annotations
 
 import warnings
+from typing import Any, Literal
 
 import numpy as np
 import pandas as pd
 import scipy.sparse as sp
 
-from . import _core
-from ._util import choice, make_ids, real_number, whole_number
+from . import _gateway as core
+from ._checks import choice, flag, real_number, whole_number
+from ._ids import examples, id_differences, make_ids
 from .errors import (
     DuplicateLocationWarning,
+    IdError,
     InvalidMatrixError,
     InvalidParameterError,
-    InvalidParameterTypeError,
     InvalidTypeError,
 )
 from .geometry import as_points, as_polygons
-from .weights import Step, Weights, call
+from .weights import Step, Weights
 
+Metric = Literal["euclidean", "great_circle"]
 METRICS = ("euclidean", "great_circle")
 RULES = ("queen", "rook")
 CONTIGUITY_WEIGHTS = ("binary", "border_length")
-EARTH_RADIUS_KM = _core.EARTH_RADIUS_KM
+EARTH_RADIUS_KM = core.EARTH_RADIUS_KM
 
 
-def _from_search(result, ids: pd.Index, step: Step) -> Weights:
+def _from_search(result: tuple[core.Csr, int], ids: pd.Index, step: Step) -> Weights:
     (indptr, indices, distances), duplicates = result
     if duplicates:
         warnings.warn(
@@ -36,10 +39,10 @@ def _from_search(result, ids: pd.Index, step: Step) -> Weights:
             stacklevel=3,
         )
     ones = np.ones(len(indices))
-    return Weights(indptr, indices, ones, ids, (step,), links={"distance": distances}, duplicates=duplicates)
+    return Weights._make((indptr, indices, ones), ids, (step,), links={"distance": distances}, duplicates=duplicates)
 
 
-def k_nearest(points, k: int, *, metric: str = "euclidean", ids=None, columns=None) -> Weights:
+def k_nearest(points: Any, k: int, *, metric: Metric = "euclidean", ids: Any = None, columns: Any = None) -> Weights:
     """Binary weights linking each unit to its exact k nearest neighbours.
 
     Parameters
@@ -69,11 +72,13 @@ def k_nearest(points, k: int, *, metric: str = "euclidean", ids=None, columns=No
     k = whole_number(k, "k", minimum=1)
     choice(metric, "metric", METRICS)
     xy, units = as_points(points, ids=ids, columns=columns)
-    result = call(_core.k_nearest, xy.reshape(-1), k, metric, ids=units)
+    result = core.k_nearest(xy, k, metric, units)
     return _from_search(result, units, Step("k_nearest", {"k": k, "metric": metric}))
 
 
-def within_distance(points, radius: float, *, metric: str = "euclidean", ids=None, columns=None) -> Weights:
+def within_distance(
+    points: Any, radius: float, *, metric: Metric = "euclidean", ids: Any = None, columns: Any = None
+) -> Weights:
     """Binary weights linking every pair of units at distance <= ``radius``.
 
     The bound is inclusive: a pair at exactly ``radius`` is linked. The
@@ -84,30 +89,79 @@ def within_distance(points, radius: float, *, metric: str = "euclidean", ids=Non
     radius = real_number(radius, "radius")
     choice(metric, "metric", METRICS)
     xy, units = as_points(points, ids=ids, columns=columns)
-    result = call(_core.within_distance, xy.reshape(-1), radius, metric, ids=units)
+    result = core.within_distance(xy, radius, metric, units)
     return _from_search(result, units, Step("within_distance", {"radius": radius, "metric": metric}))
 
 
-def from_matrix(matrix, *, ids=None, network: bool = False) -> Weights:
-    """Weights from a square SciPy sparse matrix or a dense array-like.
+def _frame_matrix(frame: pd.DataFrame) -> tuple[np.ndarray, pd.Index]:
+    """A square DataFrame as an array whose columns follow its index (labels must match)."""
+    rows, cols = frame.index, frame.columns
+    if not cols.is_unique:
+        dup = cols[cols.duplicated()].unique()
+        raise IdError(f"the matrix's column labels repeat: {examples(dup)}; each unit needs one column")
+    if not rows.equals(cols):
+        parts = id_differences(
+            rows, cols, missing="row label(s) without a column", extra="column label(s) without a row"
+        )
+        if parts:
+            raise IdError(
+                "the matrix's column labels must be the same units as its row labels ("
+                + "; ".join(parts)
+                + "); pass a NumPy array (or .to_numpy()) to use positions instead of labels"
+            )
+        frame = frame.reindex(columns=rows)  # same units, other order: columns follow the rows
+    for c, dtype in zip(frame.columns, frame.dtypes, strict=True):
+        if pd.api.types.is_bool_dtype(dtype) or not pd.api.types.is_numeric_dtype(dtype):
+            raise InvalidTypeError(f"column {c!r} has dtype {dtype}; weights must be real numbers")
+    if frame.isna().to_numpy().any():
+        r, c = np.argwhere(frame.isna().to_numpy())[0]
+        raise InvalidMatrixError(
+            f"the weight from {rows[r]!r} to {frame.columns[c]!r} is missing (NaN / NA); weights must be numbers"
+        )
+    return frame.to_numpy(dtype=np.float64), rows
 
-    Set ``network=True`` when the matrix encodes a non-spatial network
-    (trade or migration flows, commuting, social contacts): it is recorded in
-    the recipe and :meth:`Weights.audit` then cautions that the network must
-    be exogenous to the outcome. Entries must be finite and non-negative. Explicit zeros are dropped
-    (a zero weight is no link) and duplicate entries of sparse input are
-    summed. The input is copied; later changes to it do not affect the
-    weights.
+
+def from_matrix(matrix: Any, *, ids: Any = None, network: bool = False) -> Weights:
+    """Weights from a square SciPy sparse matrix, a dense array-like or a square DataFrame.
+
+    Parameters
+    ----------
+    matrix : scipy.sparse matrix or array, numpy array-like, or pandas DataFrame
+        Entry (i, j) is the weight of unit j in unit i's lag. Entries must be
+        finite and non-negative; explicit zeros are dropped (a zero weight
+        is no link) and duplicate entries of sparse input are summed. A
+        DataFrame's index gives the ids and its columns must be the same
+        units (in any order: they are matched by label).
+    ids : sequence, optional
+        Unit ids (by default a DataFrame's index, else 0..n-1).
+    network : bool
+        Set True when the matrix encodes a non-spatial network (trade or
+        migration flows, commuting, social contacts): it is recorded in the
+        recipe and :meth:`Weights.audit` then cautions that the network must
+        be exogenous to the outcome.
+
+    Returns
+    -------
+    Weights
+        A copy: later changes to the input do not affect it.
     """
-    if not isinstance(network, (bool, np.bool_)):
-        raise InvalidParameterTypeError(f"network must be True or False, got {network!r}")
-    index = getattr(matrix, "index", None) if isinstance(matrix, pd.DataFrame) else None
+    network = flag(network, "network")
+    index = None
+    if isinstance(matrix, pd.DataFrame):
+        matrix, index = _frame_matrix(matrix)
+    if isinstance(matrix, np.ma.MaskedArray):
+        if np.ma.getmaskarray(matrix).any():
+            raise InvalidMatrixError("the matrix has masked entries; fill them (0 for no link) first")
+        matrix = matrix.data
     if sp.issparse(matrix):
         m = sp.csr_array(matrix, copy=True)
     else:
-        arr = np.asarray(matrix)
-        if arr.dtype.kind not in "iufb":
-            raise InvalidTypeError(f"the matrix has dtype {arr.dtype}; weights must be numeric")
+        try:
+            arr = np.asarray(matrix)
+        except (ValueError, TypeError) as exc:
+            raise InvalidMatrixError(f"the matrix could not be read as an array ({exc}); give a square table") from None
+        if arr.dtype.kind not in "iuf":
+            raise InvalidTypeError(f"the matrix has dtype {arr.dtype}; weights must be real numbers")
         if arr.ndim != 2:
             raise InvalidMatrixError(f"the matrix must be two-dimensional and square, got shape {arr.shape}")
         m = sp.csr_array(arr.astype(np.float64))
@@ -115,31 +169,21 @@ def from_matrix(matrix, *, ids=None, network: bool = False) -> Weights:
         raise InvalidMatrixError(f"the matrix must be square, got shape {m.shape}")
     if m.shape[0] == 0:
         raise InvalidMatrixError("the matrix is empty; weights need at least one unit")
-    if m.dtype.kind not in "iufb":
+    if m.dtype.kind not in "iuf":
         raise InvalidTypeError(f"the matrix has dtype {m.dtype}; weights must be real numbers")
     m = m.astype(np.float64)
     m.sum_duplicates()
-    if not np.isfinite(m.data).all():
-        bad = np.flatnonzero(~np.isfinite(m.data))[0]
-        row = int(np.searchsorted(m.indptr, bad, side="right") - 1)
-        raise InvalidMatrixError(
-            f"weight at row {row}, column {int(m.indices[bad])} is {m.data[bad]}; weights must be finite"
-        )
     m.eliminate_zeros()
     m.sort_indices()
     n = m.shape[0]
     units = make_ids(ids, n, index)
-    indptr = m.indptr.astype(np.int64)
-    indices = m.indices.astype(np.int64)
-    call(_core.validate, n, indptr, indices, m.data, ids=units)
-    params = {"n": n, "network": True} if network else {"n": n}
-    return Weights(indptr, indices, m.data, units, (Step("from_matrix", params),))
+    indptr, indices, data = core.validate(n, m.indptr, m.indices, m.data, units)
+    params: dict[str, Any] = {"n": n, "network": True} if network else {"n": n}
+    return Weights._make((indptr, indices, data), units, (Step("from_matrix", params),))
 
 
 def _warn_empty(empty: np.ndarray, ids: pd.Index) -> None:
     if empty.any():
-        from ._util import examples
-
         warnings.warn(
             f"{int(empty.sum())} unit(s) have empty geometry and become islands: ids {examples(ids[empty])}",
             UserWarning,
@@ -147,7 +191,14 @@ def _warn_empty(empty: np.ndarray, ids: pd.Index) -> None:
         )
 
 
-def contiguity(polygons, rule: str = "queen", *, tolerance: float = 0.0, weight: str = "binary", ids=None) -> Weights:
+def contiguity(
+    polygons: Any,
+    rule: Literal["queen", "rook"] = "queen",
+    *,
+    tolerance: float = 0.0,
+    weight: Literal["binary", "border_length"] = "binary",
+    ids: Any = None,
+) -> Weights:
     """Contiguity weights: units are neighbours when their boundaries meet.
 
     Parameters
@@ -191,16 +242,14 @@ def contiguity(polygons, rule: str = "queen", *, tolerance: float = 0.0, weight:
             'weight="border_length" needs rule="rook": queen links at a single point have no length'
         )
     buffers, units, empty = as_polygons(polygons, ids=ids)
-    (indptr, indices, lengths), perimeter, _ = call(_core.contiguity, buffers, rule, tolerance, "euclidean", ids=units)
+    (indptr, indices, lengths), perimeter = core.contiguity(buffers, rule, tolerance, units)
     _warn_empty(empty, units)
     data = lengths if weight == "border_length" else np.ones(len(indices))
-    params = {"rule": rule, "tolerance": tolerance}
+    params: dict[str, Any] = {"rule": rule, "tolerance": tolerance}
     if weight != "binary":
         params["weight"] = weight
-    return Weights(
-        indptr,
-        indices,
-        data,
+    return Weights._make(
+        (indptr, indices, data),
         units,
         (Step("contiguity", params),),
         links={"border_length": lengths},
@@ -209,13 +258,13 @@ def contiguity(polygons, rule: str = "queen", *, tolerance: float = 0.0, weight:
 
 
 def cliff_ord(
-    polygons,
+    polygons: Any,
     *,
     border_power: float = 1.0,
     distance_power: float = 1.0,
-    metric: str = "euclidean",
+    metric: Metric = "euclidean",
     tolerance: float = 0.0,
-    ids=None,
+    ids: Any = None,
 ) -> Weights:
     """Cliff-Ord weights: w_ij = b_ij^a / d_ij^b for rook neighbours.
 
@@ -237,10 +286,10 @@ def cliff_ord(
     tolerance = real_number(tolerance, "tolerance")
     choice(metric, "metric", METRICS)
     buffers, units, empty = as_polygons(polygons, ids=ids)
-    (indptr, indices, data), perimeter, _ = call(_core.cliff_ord, buffers, a, b, tolerance, metric, ids=units)
+    (indptr, indices, data), perimeter = core.cliff_ord(buffers, a, b, tolerance, metric, units)
     _warn_empty(empty, units)
     step = Step(
         "cliff_ord",
         {"border_power": a, "distance_power": b, "metric": metric, "tolerance": tolerance, "symmetric": False},
     )
-    return Weights(indptr, indices, data, units, (step,), units={"perimeter": perimeter})
+    return Weights._make((indptr, indices, data), units, (step,), units={"perimeter": perimeter})

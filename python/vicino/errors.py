@@ -8,6 +8,9 @@ units carry ``positions`` (row numbers) and, where known, ``ids``.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
+from typing import Any
+
 __all__ = [
     "ConvergenceError",
     "DuplicateLocationWarning",
@@ -25,12 +28,25 @@ __all__ = [
 
 
 class VicinoError(Exception):
-    """Base class of every error raised by vicino."""
+    """Base class of every error raised by vicino.
 
-    count: int = 0
-    positions: list[int] = []
+    Attributes
+    ----------
+    positions : list of int
+        Row positions of the units the error is about (the first few).
+    ids : list
+        The ids of those units, where known.
+    count : int
+        How many units are concerned in all (may exceed ``len(positions)``).
+    """
 
-    def __init__(self, message: str = "", *, count: int = 0, positions=(), ids=()):
+    count: int
+    positions: list[int]
+    ids: list[Any]
+
+    def __init__(
+        self, message: str = "", *, count: int = 0, positions: Iterable[int] = (), ids: Iterable[Any] = ()
+    ) -> None:
         super().__init__(message)
         self.count = count
         self.positions = list(positions)
@@ -74,6 +90,14 @@ class InvalidValuesError(VicinoError, ValueError):
 
 class ConvergenceError(VicinoError, ValueError):
     """An iterative computation did not converge for these weights."""
+
+
+class TooLargeError(VicinoError, MemoryError):
+    """A result that would need more memory than the limit allows.
+
+    The message gives the estimate and a way to need less;
+    :func:`vicino.set_memory_limit` raises the limit.
+    """
 
 
 class InternalError(VicinoError, RuntimeError):

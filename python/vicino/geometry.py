@@ -7,11 +7,31 @@ shapely array or list of points. Nothing here loops over units in Python.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 
-from ._util import examples, make_ids
+from . import _gateway as core
+from ._ids import check_index, examples, make_ids
 from .errors import InvalidInputError, InvalidTypeError
+
+# shapely's geometry type ids, named for messages
+GEOMETRY_TYPES = {
+    0: "Point",
+    1: "LineString",
+    2: "LinearRing",
+    3: "Polygon",
+    4: "MultiPoint",
+    5: "MultiLineString",
+    6: "MultiPolygon",
+    7: "GeometryCollection",
+}
+
+
+def _type_names(kinds: np.ndarray) -> str:
+    return ", ".join(GEOMETRY_TYPES.get(int(k), f"type {int(k)}") for k in sorted(set(kinds.tolist())))
+
 
 # Column pairs recognised without being named, tried in this order
 # (case-insensitive). The first of each pair is x / longitude.
@@ -42,15 +62,19 @@ def _points_from_geometry(values, index: pd.Index) -> np.ndarray:
     geoms = np.asarray(values, dtype=object)
     if geoms.ndim != 1:
         raise InvalidInputError("geometries must be a one-dimensional collection, one per unit")
-    missing = np.array([g is None for g in geoms.tolist()]) if geoms.size else np.zeros(0, bool)
+    missing = pd.isna(geoms)
     if missing.any():
         raise InvalidInputError(f"{int(missing.sum())} unit(s) have no geometry (None): ids {examples(index[missing])}")
-    kinds = shapely.get_type_id(geoms)
+    try:
+        kinds = shapely.get_type_id(geoms)
+    except TypeError:
+        raise InvalidTypeError(
+            "some values are not shapely geometries; give points as geometries or coordinates"
+        ) from None
     not_points = kinds != 0
     if not_points.any():
-        names = shapely.get_type_id(geoms[not_points])
         raise InvalidInputError(
-            f"{int(not_points.sum())} geometries are not points (type ids {sorted(set(names.tolist()))}), "
+            f"{int(not_points.sum())} geometries are not points ({_type_names(kinds[not_points])}), "
             f"ids {examples(index[not_points])}; use their centroids (geoms.centroid) or a polygon builder"
         )
     empty = shapely.is_empty(geoms)
@@ -59,33 +83,71 @@ def _points_from_geometry(values, index: pd.Index) -> np.ndarray:
     return np.column_stack([shapely.get_x(geoms), shapely.get_y(geoms)])
 
 
-def _numeric(block, what: str) -> np.ndarray:
+KIND_NAMES = {"b": "booleans", "c": "complex numbers", "M": "dates", "m": "time spans", "U": "text", "S": "bytes"}
+
+
+def _numeric(block: Any, what: str, index: pd.Index | None = None) -> np.ndarray:
+    """Coordinates as a float array; masked, missing and non-numeric values refused."""
+    if isinstance(block, pd.DataFrame):
+        for c, dtype in zip(block.columns, block.dtypes, strict=True):
+            if pd.api.types.is_bool_dtype(dtype) or not pd.api.types.is_numeric_dtype(dtype):
+                raise InvalidTypeError(f"column {c!r} has dtype {dtype}; coordinates must be numeric (int or float)")
+            if pd.api.types.is_complex_dtype(dtype):
+                raise InvalidTypeError(f"column {c!r} holds complex numbers; coordinates must be real numbers")
+        missing = block.isna().to_numpy().any(axis=1)
+        if missing.any():
+            where = np.flatnonzero(missing)
+            named = block.index[where]
+            raise InvalidInputError(
+                f"{len(where)} unit(s) have missing coordinates (NaN / NA), ids {examples(named)}; "
+                "drop or impute units with missing locations first",
+                count=len(where),
+                positions=where[:10].tolist(),
+                ids=list(named[:10]),
+            )
+        return block.to_numpy(dtype=np.float64)
+    if isinstance(block, np.ma.MaskedArray):
+        mask = np.ma.getmaskarray(block)
+        if mask.any():
+            rows = np.flatnonzero(mask.reshape(mask.shape[0], -1).any(axis=1)) if mask.ndim else np.array([0])
+            raise InvalidInputError(
+                f"{len(rows)} unit(s) have masked {what}, at positions {examples(rows)}; "
+                "fill them or drop those units first",
+                count=len(rows),
+                positions=rows[:10].tolist(),
+            )
+        block = block.data
     try:
         arr = np.asarray(block)
-    except Exception as exc:
-        raise InvalidTypeError(f"could not read {what} as numbers: {exc}") from exc
-    if arr.dtype.kind == "b":
-        raise InvalidTypeError(f"{what} are booleans; coordinates must be numbers")
-    if arr.dtype.kind in "US" or (
-        arr.dtype.kind == "O"
-        and pd.api.types.infer_dtype(arr.ravel(), skipna=False)
-        not in ("integer", "floating", "mixed-integer-float", "decimal")
-    ):
-        found = "text" if arr.dtype.kind in "US" else pd.api.types.infer_dtype(arr.ravel(), skipna=False)
-        raise InvalidTypeError(
-            f"{what} are not all numbers (found {found}); convert them first, e.g. with pd.to_numeric"
-        )
-    if arr.dtype.kind not in "iuf":
+    except (ValueError, TypeError) as exc:
+        raise InvalidInputError(
+            f"could not read {what} as an (n, 2) array ({exc}); give the same number of values in every row"
+        ) from None
+    if arr.dtype.kind == "O":
+        kind = pd.api.types.infer_dtype(arr.ravel(), skipna=False)
+        if kind not in ("integer", "floating", "mixed-integer-float", "decimal"):
+            raise InvalidTypeError(
+                f"{what} are not all numbers (found {kind}); convert them first, e.g. with pd.to_numeric"
+            )
         try:
             arr = arr.astype(np.float64)
         except (TypeError, ValueError) as exc:
-            raise InvalidTypeError(
-                f"{what} must be numeric, got dtype {arr.dtype} ({exc}); convert them with pd.to_numeric"
-            ) from exc
+            raise InvalidTypeError(f"{what} must be numeric ({exc}); convert them with pd.to_numeric") from None
+    if arr.dtype.kind not in "iuf":
+        found = KIND_NAMES.get(arr.dtype.kind, f"dtype {arr.dtype}")
+        raise InvalidTypeError(f"{what} are {found}; coordinates must be real numbers")
     return arr
 
 
-def _frame_columns(df: pd.DataFrame, columns) -> list:
+def _frame_columns(df: pd.DataFrame, columns: Any) -> list:
+    cols = _pick_columns(df, columns)
+    repeated = [c for c in cols if list(df.columns).count(c) > 1]
+    if repeated:
+        raise InvalidInputError(f"the DataFrame has more than one column named {examples(repeated)}; rename them")
+    return cols
+
+
+def _pick_columns(df: pd.DataFrame, columns: Any) -> list:
     if columns is not None:
         cols = list(columns)
         if len(cols) != 2:
@@ -120,7 +182,7 @@ def as_points(points, *, ids=None, columns=None) -> tuple[np.ndarray, pd.Index]:
             xy = _points_from_geometry(np.asarray(geometry, dtype=object), index)
         else:
             cols = _frame_columns(points, columns)
-            xy = _numeric(points[cols].to_numpy(), f"columns {cols}")
+            xy = _numeric(points[cols], f"columns {cols}")
     elif isinstance(points, pd.Series):
         index = points.index
         if not _is_geometry_array(points.to_numpy()):
@@ -206,10 +268,14 @@ def as_polygons(polygons, *, ids=None):
     polygon = kinds == 3
     wrong = ~(polygon | (kinds == 6)) & ~empty  # 3 Polygon, 6 MultiPolygon
     if wrong.any():
-        names = sorted(set(kinds[wrong].tolist()))
+        hint = (
+            "; keep only the polygon parts of each collection (shapely.get_parts, then one MultiPolygon per unit)"
+            if (kinds[wrong] == 7).any()
+            else ""
+        )
         raise InvalidInputError(
-            f"{int(wrong.sum())} geometries are not polygons (shapely type ids {names}), ids {examples(units[wrong])}; "
-            "contiguity needs Polygon or MultiPolygon units"
+            f"{int(wrong.sum())} geometries are not polygons ({_type_names(kinds[wrong])}), ids "
+            f"{examples(units[wrong])}; these weights need one Polygon or MultiPolygon per unit{hint}"
         )
     if (polygon | empty).all() and shapely.get_num_interior_rings(values).max() <= 0:
         # one ring per unit: coordinates in unit order, one offset per unit
@@ -247,23 +313,20 @@ def _holds_polygons(values) -> bool:
     return bool(np.isin(kinds, (3, 6)).any())
 
 
-def unit_locations(locations, ids: pd.Index):
-    """One location per unit, aligned with ``ids``: an (n, 2) float64 array
-    (rows of NaN for empty polygons) and the polygons' object array (None
-    for point input).
+def unit_locations(locations: Any, ids: pd.Index) -> tuple[np.ndarray, np.ndarray | None]:
+    """One location per unit, aligned with ``ids``.
 
-    Points as :func:`as_points` accepts them; polygons as :func:`as_polygons`
-    accepts them, located at their area-weighted centroids (computed in the
-    core). A pandas input's index must equal ``ids``.
+    Returns an (n, 2) float64 array (rows of NaN for empty polygons) and the
+    polygons' object array (None for point input). Points as
+    :func:`as_points` accepts them; polygons as :func:`as_polygons` accepts
+    them, located at their area-weighted centroids (computed in the core). A
+    pandas input's index must equal ``ids``.
     """
-    from .weights import check_index
-
+    geoms: np.ndarray | None
     if _holds_polygons(locations):
-        from . import _core
-
         geoms, index = _geometry_values(locations)
         buffers, units, _ = as_polygons(geoms, ids=index)
-        xy = _core.centroids(buffers).reshape(-1, 2)
+        xy = core.centroids(buffers, ids if len(units) == len(ids) else units)
     else:
         xy, units = as_points(locations)
         geoms = None

@@ -8,6 +8,8 @@ the things that need attention stand out and everything else recedes.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from .errors import InvalidTypeError
@@ -35,13 +37,14 @@ def _axes(ax):
     return ax
 
 
-def plot_counts(weights, ax=None):
-    """Bar chart of how many units have each neighbour count; the bar of
-    islands (0 neighbours) in rust, the median as a dotted line. Returns the Axes.
+def plot_counts(counts: np.ndarray, ax: Any = None) -> Any:
+    """Bar chart of how many units have each neighbour count.
+
+    The bar of islands (0 neighbours) in rust, the median as a dotted line.
+    Returns the Axes.
     """
     _pyplot()
     ax = _axes(ax)
-    counts = np.diff(weights._indptr)
     values, units = np.unique(counts, return_counts=True)
     colours = [ISLAND if v == 0 else BAR for v in values]
     ax.bar(values, units, width=0.8, color=colours, edgecolor="white", linewidth=0.6)
@@ -68,7 +71,7 @@ def plot_counts(weights, ax=None):
         )
     ax.set_xlabel("neighbours per unit")
     ax.set_ylabel("units")
-    ax.set_title(f"Neighbour counts of {weights.n:,} units", loc="left", fontsize=11)
+    ax.set_title(f"Neighbour counts of {len(counts):,} units", loc="left", fontsize=11)
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
     return ax
@@ -87,40 +90,41 @@ def _boundaries(geoms):
     return np.split(coords, cuts)
 
 
-def plot_links(weights, locations, ax=None):
-    """Links drawn as straight lines between unit centres (points, or polygon
-    centroids) over the polygon boundaries; islands marked with rust rings
-    and units of smaller components in ochre. Returns the Axes.
+def plot_links(
+    xy: np.ndarray,
+    geoms: np.ndarray | None,
+    pairs: np.ndarray,
+    labels: np.ndarray,
+    counts: np.ndarray,
+    ax: Any = None,
+) -> Any:
+    """Links drawn as straight lines between unit centres over the polygon boundaries.
+
+    ``xy`` are the centres (points, or polygon centroids), ``geoms`` the
+    polygons (or None), ``pairs`` each linked pair once, ``labels`` the
+    component of each unit (0 the largest) and ``counts`` its neighbours.
+    Islands are marked with rust rings and units of smaller components in
+    ochre. Returns the Axes.
     """
     _pyplot()
     from matplotlib.collections import LineCollection
     from matplotlib.lines import Line2D
 
-    from . import _core
-    from .geometry import unit_locations
-
-    xy, geoms = unit_locations(locations, weights.ids)
+    n = len(counts)
     ax = _axes(ax)
     if geoms is not None:
         ax.add_collection(LineCollection(_boundaries(geoms), colors=BORDER, linewidths=0.6, zorder=1))
-    labels, _ = _core.components(weights._csr())
-    rows = np.repeat(np.arange(weights.n), np.diff(weights._indptr))
-    cols = weights._indices
-    # each pair once (a two-way link is one line)
-    pairs = np.unique(np.sort(np.column_stack([rows, cols]), axis=1), axis=0) if len(rows) else np.zeros((0, 2), int)
-    pairs = pairs[pairs[:, 0] != pairs[:, 1]]
     located = np.isfinite(xy).all(axis=1)
     pairs = pairs[located[pairs[:, 0]] & located[pairs[:, 1]]]
     segments = np.stack([xy[pairs[:, 0]], xy[pairs[:, 1]]], axis=1) if len(pairs) else np.zeros((0, 2, 2))
     small_link = labels[pairs[:, 0]] != 0
-    width = 0.8 if weights.n <= 2000 else 0.3
+    width = 0.8 if n <= 2000 else 0.3
     ax.add_collection(LineCollection(segments[~small_link], colors=LINK, linewidths=width, alpha=0.8, zorder=2))
     ax.add_collection(LineCollection(segments[small_link], colors=SMALL, linewidths=width * 1.5, zorder=2))
-    counts = np.diff(weights._indptr)
     island = (counts == 0) & located
     small = (labels != 0) & ~island & located
     main = located & ~island & ~small
-    size = 10 if weights.n <= 2000 else 2
+    size = 10 if n <= 2000 else 2
     ax.scatter(xy[main, 0], xy[main, 1], s=size, color=INK, linewidths=0, zorder=3)
     ax.scatter(xy[small, 0], xy[small, 1], s=size * 1.8, color=SMALL, edgecolors=INK, linewidths=0.4, zorder=3)
     ax.scatter(xy[island, 0], xy[island, 1], s=size * 6, facecolors="none", edgecolors=ISLAND, linewidths=1.6, zorder=4)
@@ -156,7 +160,7 @@ def plot_links(weights, locations, ax=None):
             )
         )
     ax.legend(handles=handles, loc="lower left", frameon=False, fontsize=8)
-    ax.set_title(f"{weights.n:,} units, {len(pairs):,} linked pairs", loc="left", fontsize=11)
+    ax.set_title(f"{n:,} units, {len(pairs):,} linked pairs", loc="left", fontsize=11)
     ax.set_xticks([])
     ax.set_yticks([])
     for side in ax.spines.values():

@@ -11,16 +11,18 @@ from __future__ import annotations
 import html
 import secrets
 from dataclasses import dataclass, field
+from typing import Any, Literal
 
 import numpy as np
 import pandas as pd
 from scipy.special import ndtr
 
-from . import _core
-from ._util import choice, whole_number
-from .errors import InvalidTypeError
-from .weights import Weights, call
+from . import _gateway as core
+from ._checks import choice, whole_number
+from .errors import InvalidParameterError, InvalidTypeError
+from .weights import Weights, aligned_values, core_matrix
 
+Alternative = Literal["two-sided", "greater", "less"]
 ALTERNATIVES = ("two-sided", "greater", "less")
 
 
@@ -125,14 +127,29 @@ class MoranResult:
         return "<div>" + head + self.table().to_html(float_format=lambda v: f"{v:.6g}") + "</div>"
 
 
-def _seed(seed) -> int:
+def _seed(seed: Any) -> int:
     if seed is None:
         return secrets.randbits(64)
-    return whole_number(seed, "seed", minimum=0) % 2**64
+    return whole_number(seed, "seed", minimum=0, maximum=2**64 - 1)
+
+
+def _permutations(permutations: Any) -> int:
+    r = whole_number(permutations, "permutations", minimum=0)
+    if r == 1:
+        raise InvalidParameterError(
+            "permutations = 1 gives no spread to compare with: use 0 to skip the permutation test, "
+            "or at least 2 (999 is usual; the smallest p-value is 1 / (R + 1))"
+        )
+    return r
 
 
 def moran(
-    values, weights: Weights, *, permutations: int = 999, seed=None, alternative: str = "two-sided"
+    values: Any,
+    weights: Weights,
+    *,
+    permutations: int = 999,
+    seed: int | None = None,
+    alternative: Alternative = "two-sided",
 ) -> MoranResult:
     """Global Moran's I of one variable under one weights matrix.
 
@@ -145,52 +162,57 @@ def moran(
         Any non-negative weights; asymmetric weights are handled by the
         general Cliff-Ord moments.
     permutations : int
-        Number of random permutations (0 skips the permutation test).
+        Number of random permutations (0 skips the permutation test; 1 is
+        refused, since one draw has no spread).
     seed : int, optional
-        Seed of the permutations; the result is the same for a given seed
-        whatever the number of threads. When None a random seed is drawn and
-        reported in ``result.permutation.seed``.
+        Seed of the permutations, 0 <= seed < 2**64; the result is the same
+        for a given seed whatever the number of threads. When None a random
+        seed is drawn and reported in ``result.permutation.seed``.
     alternative : {"two-sided", "greater", "less"}
         "greater" tests for positive autocorrelation (clustering). The
         two-sided permutation test counts draws at least as far from E[I]
         as the observed value.
 
+    Returns
+    -------
+    MoranResult
+        The statistic and its inference under each assumption.
+
     Notes
     -----
-    E[I] = -1/(n - 1); the variances are those of Cliff and Ord (1981).
-    A small p-value says the pattern is unlikely under random assignment of
-    the values to units *for these weights*; it does not say why.
+    I = (n / S0) z'Wz / z'z with z the centred values; E[I] = -1/(n - 1);
+    the variances are those of Cliff and Ord (1981), and the permutation
+    p-value is (M + 1) / (R + 1) (Hope 1968). A small p-value says the
+    pattern is unlikely under random assignment of the values to units *for
+    these weights*; it does not say why.
     """
     if not isinstance(weights, Weights):
         raise InvalidTypeError(f"weights must be vicino.Weights, got {type(weights).__name__}; see vicino.from_matrix")
-    permutations = whole_number(permutations, "permutations", minimum=0)
+    permutations = _permutations(permutations)
     choice(alternative, "alternative", ALTERNATIVES)
     seed = _seed(seed)
-    x, _ = weights._aligned(values, allow_2d=False)
-    r = call(_core.moran, weights._csr(), x, permutations, seed, alternative, ids=weights.ids)
-    stat, expected = r["statistic"], r["expected"]
+    x, _ = aligned_values(weights, values, allow_2d=False)
+    r = core.moran(core_matrix(weights), x, permutations, seed, alternative, weights.ids)
 
-    def analytic(name):
-        z = r[f"{name}_z"]
-        return AnalyticInference(name, r[f"{name}_variance"], z, normal_p(z, alternative))
+    def analytic(name: str) -> AnalyticInference:
+        z = getattr(r, f"{name}_z")
+        return AnalyticInference(name, getattr(r, f"{name}_variance"), z, normal_p(z, alternative))
 
     perm = None
-    if permutations:
-        draws = r["perm_draws"]
+    if r.permutation is not None:
+        extreme, p_value, mean, std, z, draws = r.permutation
         draws.flags.writeable = False
-        perm = PermutationInference(
-            permutations, seed, r["perm_extreme"], r["perm_p"], r["perm_mean"], r["perm_std"], r["perm_z"], draws
-        )
+        perm = PermutationInference(permutations, seed, extreme, p_value, mean, std, z, draws)
     return MoranResult(
-        stat,
-        expected,
-        r["n"],
+        r.statistic,
+        r.expected,
+        r.n,
         alternative,
         analytic("normality"),
         analytic("randomization"),
         perm,
-        r["s0"],
-        r["s1"],
-        r["s2"],
+        r.s0,
+        r.s1,
+        r.s2,
         " -> ".join(str(s) for s in weights.recipe),
     )

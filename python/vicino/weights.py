@@ -6,30 +6,42 @@ from __future__ import annotations
 
 import html
 import warnings
-from collections.abc import Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 import scipy.sparse as sp
 
-from . import _core
-from ._util import choice, examples, name_positions, real_number, whole_number
+from . import _gateway as core
+from ._checks import choice, real_number, whole_number
+from ._ids import check_index, examples, id_differences, is_unit_key, make_ids
+from ._values import as_values
+from .geometry import unit_locations
 from .errors import (
     IdError,
+    InvalidMatrixError,
     InvalidParameterError,
     InvalidParameterTypeError,
-    InvalidTypeError,
-    InvalidValuesError,
     VicinoError,
 )
 
 if TYPE_CHECKING:
     from .audit import Audit
 
-STANDARDIZATIONS = ("row", "binary", "max_entry", "max_eigenvalue", "global", "variance_stabilizing", "none")
+Standardization = Literal["row", "binary", "max_entry", "max_eigenvalue", "global", "variance_stabilizing", "none"]
+STANDARDIZATIONS: tuple[str, ...] = (
+    "row",
+    "binary",
+    "max_entry",
+    "max_eigenvalue",
+    "global",
+    "variance_stabilizing",
+    "none",
+)
 DENSE_LIMIT = 5_000  # units above which to_dense() needs force=True
 
 
@@ -40,109 +52,198 @@ class Step:
     action: str
     params: Mapping[str, Any] = field(default_factory=dict)
 
-    def __post_init__(self):
+    def __post_init__(self) -> None:
         # a read-only copy, so a recipe cannot be rewritten after the fact
         object.__setattr__(self, "params", MappingProxyType(dict(self.params)))
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (Step, (self.action, dict(self.params)))
 
     def __str__(self) -> str:
         args = ", ".join(f"{k}={v!r}" for k, v in self.params.items())
         return f"{self.action}({args})"
 
 
-def _frozen(a: np.ndarray, dtype) -> np.ndarray:
-    """A read-only view (no copy when the dtype and layout already fit)."""
-    view = np.ascontiguousarray(a, dtype=dtype).view()
-    view.flags.writeable = False
-    return view
+def _facts(facts: Mapping[str, Any] | None, size: int, what: str) -> Mapping[str, np.ndarray]:
+    """Per-link or per-unit facts as read-only float arrays of the right length."""
+    out = {}
+    for name, values in (facts or {}).items():
+        arr = core.frozen(values)
+        if arr.shape != (size,):
+            raise InvalidMatrixError(f"the {what} fact {name!r} has shape {arr.shape}; it needs one value per {what}")
+        out[name] = arr
+    return MappingProxyType(out)
 
 
 class Weights:
     """A spatial weights matrix: who neighbours whom, and how strongly.
 
     Weights are immutable: every operation returns a new object. Build them
-    with :func:`vicino.k_nearest`, :func:`vicino.within_distance` or
-    :func:`vicino.from_matrix` rather than calling this class.
+    with the constructors (:func:`vicino.k_nearest`,
+    :func:`vicino.within_distance`, :func:`vicino.contiguity`,
+    :func:`vicino.from_matrix`, ...) rather than calling this class; calling
+    it checks every buffer (canonical CSR: sorted indices, no repeats,
+    weights finite and positive) and copies them.
+
+    A link is a stored entry, and every stored weight is positive; a unit
+    without a link to another unit is an island (a self-link alone does not
+    make a neighbour).
+
+    Parameters
+    ----------
+    indptr, indices, data : array-like
+        Canonical CSR buffers of a square matrix.
+    ids : sequence
+        One unique id per unit.
+    recipe : iterable of Step, optional
+        How the matrix was made.
 
     Attributes
     ----------
     n : int
         Number of units.
     nnz : int
-        Number of links (stored non-zero weights).
+        Number of links (stored weights).
     ids : pandas.Index
         Unit ids, in row order.
     recipe : tuple of Step
         How the matrix was built and transformed.
     """
 
-    __slots__ = ("_data", "_duplicates", "_ids", "_indices", "_indptr", "_links", "_recipe", "_units")
+    __slots__ = ("_counts", "_data", "_duplicates", "_ids", "_indices", "_indptr", "_links", "_recipe", "_units")
+    _indptr: npt.NDArray[np.int64]
+    _indices: npt.NDArray[np.int64]
+    _data: npt.NDArray[np.float64]
+    _ids: pd.Index
+    _recipe: tuple[Step, ...]
+    _links: Mapping[str, np.ndarray]
+    _units: Mapping[str, np.ndarray]
+    _duplicates: int | None
+    _counts: npt.NDArray[np.int64] | None
 
-    def __init__(
-        self, indptr, indices, data, ids: pd.Index, recipe=(), *, links=None, units=None, duplicates: int | None = 0
-    ):
+    def __init__(self, indptr: Any, indices: Any, data: Any, ids: Any, recipe: Iterable[Step] = ()) -> None:
+        indptr = np.asarray(indptr)
+        n = len(indptr) - 1
+        if indptr.ndim != 1 or n < 1:
+            raise InvalidMatrixError("indptr must be a one-dimensional array of n + 1 row pointers, n >= 1")
+        units = make_ids(ids, n)
+        p, i, d = core.validate(n, indptr, indices, data, units)
+        steps = tuple(recipe)
+        if not all(isinstance(s, Step) for s in steps):
+            raise InvalidParameterTypeError("recipe must be a sequence of vicino.Step")
+        self._init(p, i, d, units, steps, None, None, 0)
+
+    def _init(self, indptr, indices, data, ids, recipe, links, units, duplicates) -> None:
         put = object.__setattr__
-        put(self, "_indptr", _frozen(indptr, np.int64))
-        put(self, "_indices", _frozen(indices, np.int64))
-        put(self, "_data", _frozen(data, np.float64))
+        put(self, "_indptr", indptr)
+        put(self, "_indices", indices)
+        put(self, "_data", data)
         put(self, "_ids", ids)
         put(self, "_recipe", tuple(recipe))
         # per-link facts from the builder (distance, border_length), aligned with data
-        put(self, "_links", MappingProxyType({k: _frozen(v, np.float64) for k, v in (links or {}).items()}))
+        put(self, "_links", _facts(links, len(data), "link"))
         # per-unit facts from the builder (perimeter), aligned with ids
-        put(self, "_units", MappingProxyType({k: _frozen(v, np.float64) for k, v in (units or {}).items()}))
+        put(self, "_units", _facts(units, len(ids), "unit"))
         # units sharing a location, as the builder found; None once unknown (after dropping units)
         put(self, "_duplicates", None if duplicates is None else int(duplicates))
-        if len(self._indptr) != len(ids) + 1 or len(self._indices) != len(self._data):
+        put(self, "_counts", None)
+
+    @classmethod
+    def _make(
+        cls,
+        csr: tuple[Any, Any, Any],
+        ids: pd.Index,
+        recipe: Iterable[Step],
+        *,
+        links: Mapping[str, Any] | None = None,
+        units: Mapping[str, Any] | None = None,
+        duplicates: int | None = 0,
+    ) -> Weights:
+        """Weights from buffers that vicino's core made (canonical, read-only): no checks, no copies."""
+        self = cls.__new__(cls)
+        indptr, indices, data = (core.frozen(csr[0], np.int64), core.frozen(csr[1], np.int64), core.frozen(csr[2]))
+        if len(indptr) != len(ids) + 1 or len(indices) != len(data):
             raise VicinoError("inconsistent buffers for Weights; build weights with the vicino builders")
+        self._init(indptr, indices, data, ids, recipe, links, units, duplicates)
+        return self
 
-    def __setattr__(self, name, value):
+    def __setattr__(self, name: str, value: Any) -> None:
         raise AttributeError("Weights are immutable; operations return new Weights")
 
-    def __delattr__(self, name):
+    def __delattr__(self, name: str) -> None:
         raise AttributeError("Weights are immutable; operations return new Weights")
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        state = (
+            self._indptr,
+            self._indices,
+            self._data,
+            self._ids,
+            self._recipe,
+            dict(self._links),
+            dict(self._units),
+            self._duplicates,
+        )
+        return (_restore, state)
+
+    def __copy__(self) -> Weights:
+        return self  # immutable: a copy is the same object
+
+    def __deepcopy__(self, memo: dict) -> Weights:
+        return self
 
     # ---- basic facts -------------------------------------------------
     @property
     def n(self) -> int:
+        """Number of units."""
         return len(self._ids)
 
     @property
     def nnz(self) -> int:
+        """Number of links (stored weights, self-links included)."""
         return len(self._data)
 
     @property
     def ids(self) -> pd.Index:
+        """Unit ids, in row order."""
         return self._ids
 
     @property
     def recipe(self) -> tuple[Step, ...]:
+        """How the matrix was built and transformed."""
         return self._recipe
+
+    def _neighbour_counts(self) -> npt.NDArray[np.int64]:
+        if self._counts is None:
+            object.__setattr__(self, "_counts", core.neighbour_counts(self._core(), self._ids))
+        assert self._counts is not None
+        return self._counts
 
     @property
     def counts(self) -> pd.Series:
-        """Number of neighbours of each unit, by id."""
-        return pd.Series(np.diff(self._indptr), index=self._ids, name="neighbors")
+        """Number of neighbours of each unit (links to other units), by id."""
+        return pd.Series(self._neighbour_counts(), index=self._ids, name="neighbors")
 
     @property
     def islands(self) -> pd.Index:
-        """Ids of units without neighbours."""
-        return self._ids[np.diff(self._indptr) == 0]
+        """Ids of units without a link to another unit."""
+        return self._ids[self._neighbour_counts() == 0]
 
     @property
     def self_links(self) -> int:
         """Number of units linked to themselves (non-zero diagonal)."""
-        rows = np.repeat(np.arange(self.n), np.diff(self._indptr))
-        return int((rows == self._indices).sum())
+        return int(np.diff(self._indptr).sum() - self._neighbour_counts().sum())
 
     @property
     def density(self) -> float:
         """Share of all ordered pairs of distinct units that are linked (self-links not counted)."""
-        return (self.nnz - self.self_links) / (self.n * (self.n - 1)) if self.n > 1 else 0.0
+        return float(self._neighbour_counts().sum()) / (self.n * (self.n - 1)) if self.n > 1 else 0.0
 
     @property
     def duplicate_locations(self) -> int | None:
-        """How many units share their location with another (as found by the builder; None
-        when unknown, after units were dropped).
+        """How many units share their location with another.
+
+        As found by the builder; None when unknown (after units were dropped).
         """
         return self._duplicates
 
@@ -153,16 +254,14 @@ class Weights:
             raise InvalidParameterError("these weights were not built from polygons, so they know no perimeters")
         return pd.Series(self._units["perimeter"], index=self._ids, name="perimeter")
 
-    def _csr(self):
+    def _core(self) -> core.CoreMatrix:
         return self.n, self._indptr, self._indices, self._data
 
-    def _derive(self, data, step: Step) -> Weights:
-        return Weights(
-            self._indptr,
-            self._indices,
-            data,
+    def _derive(self, data: np.ndarray, step: Step) -> Weights:
+        return Weights._make(
+            (self._indptr, self._indices, data),
             self._ids,
-            self._recipe + (step,),
+            (*self._recipe, step),
             links=self._links,
             units=self._units,
             duplicates=self._duplicates,
@@ -196,17 +295,30 @@ class Weights:
         out.update(self._links)
         return pd.DataFrame(out)
 
-    def neighbors_of(self, unit) -> pd.Series:
-        """Weights of the neighbours of one unit, indexed by neighbour id."""
+    def neighbors_of(self, unit: Any) -> pd.Series:
+        """Weights of the neighbours of one unit, indexed by neighbour id.
+
+        ``unit`` is one id (for a MultiIndex, the full tuple); a list, a
+        slice or part of a key is an error.
+        """
+        if not is_unit_key(unit):
+            raise IdError(
+                f"neighbors_of takes one id, got {type(unit).__name__} {unit!r}; "
+                "to look at several units use subset(ids) or to_edges()"
+            )
         try:
             pos = self._ids.get_loc(unit)
-        except KeyError:
+        except (KeyError, TypeError, pd.errors.InvalidIndexError):
             raise IdError(f"unknown id {unit!r}; ids look like {examples(list(self._ids[:3]))}") from None
+        if not isinstance(pos, (int, np.integer)):
+            raise IdError(
+                f"{unit!r} is only part of an id (it matches several units); give the full id, such as {self._ids[0]!r}"
+            )
         a, b = self._indptr[pos], self._indptr[pos + 1]
         return pd.Series(self._data[a:b], index=self._ids.take(self._indices[a:b]), name=f"weights of {unit!r}")
 
     # ---- transformations ---------------------------------------------
-    def standardize(self, method: str, *, islands: str = "raise") -> Weights:
+    def standardize(self, method: Standardization, *, islands: Literal["raise", "keep"] = "raise") -> Weights:
         """A standardized copy of the weights.
 
         Parameters
@@ -225,16 +337,16 @@ class Weights:
         """
         choice(method, "standardization", STANDARDIZATIONS)
         choice(islands, "islands policy", ("raise", "keep"))
-        data = call(_core.standardize, self._csr(), method, islands == "keep", ids=self._ids)
+        data = core.standardize(self._core(), method, islands == "keep", self._ids)
         params = {"method": method} if islands == "raise" else {"method": method, "islands": islands}
         return self._derive(data, Step("standardize", params))
 
     def spectral_radius(self) -> float:
         """The largest eigenvalue in modulus of the matrix (found iteratively)."""
-        value, _, _ = call(_core.spectral_radius, self._csr(), ids=self._ids)
+        value, _, _ = core.spectral_radius(self._core(), self._ids)
         return value
 
-    def lag(self, values):
+    def lag(self, values: Any) -> Any:
         """The spatial lag W x of one or many variables.
 
         ``values`` may be a 1-D or 2-D array (rows are units in the order of
@@ -242,61 +354,8 @@ class Weights:
         ``ids`` (it is never reordered silently). The result has the same
         type, index and columns.
         """
-        arr, wrap = self._aligned(values, allow_2d=True)
-        if arr.ndim == 1:
-            out = call(_core.lag_vector, self._csr(), arr, ids=self._ids)
-        else:
-            out = call(_core.lag_columns, self._csr(), arr, ids=self._ids)
-        return wrap(out)
-
-    def _aligned(self, values, *, allow_2d: bool):
-        """Values as a contiguous float64 array in unit order, and a function that wraps results back."""
-        if isinstance(values, (pd.Series, pd.DataFrame)):
-            check_index(values.index, self._ids)
-            if isinstance(values, pd.DataFrame):
-                bad = [
-                    c
-                    for c in values.columns
-                    if not (pd.api.types.is_numeric_dtype(values[c]) and not pd.api.types.is_bool_dtype(values[c]))
-                ]
-                if bad:
-                    raise InvalidTypeError(f"columns {examples(bad)} are not numeric; select numeric columns first")
-                arr = values.to_numpy(dtype=np.float64)
-
-                def wrap(out, _v=values):
-                    return pd.DataFrame(out, index=_v.index, columns=_v.columns)
-            else:
-                if not pd.api.types.is_numeric_dtype(values) or pd.api.types.is_bool_dtype(values):
-                    raise InvalidTypeError(f"values have dtype {values.dtype}; they must be numeric")
-                arr = values.to_numpy(dtype=np.float64)
-
-                def wrap(out, _v=values):
-                    return pd.Series(out, index=_v.index, name=_v.name)
-        else:
-            raw = np.asarray(values)
-            if raw.dtype.kind not in "iuf":
-                raise InvalidTypeError(f"values have dtype {raw.dtype}; they must be numeric (int or float)")
-            arr = raw.astype(np.float64, copy=False)
-
-            def wrap(out):
-                return out
-
-        if arr.ndim == 0 or arr.ndim > (2 if allow_2d else 1):
-            shape = "(n,) or (n, m)" if allow_2d else "(n,)"
-            raise InvalidValuesError(f"values must have shape {shape}, got {arr.shape}")
-        if arr.shape[0] != self.n:
-            raise InvalidValuesError(f"values have {arr.shape[0]} rows but the weights have {self.n} units")
-        finite = np.isfinite(arr) if arr.ndim == 1 else np.isfinite(arr).all(axis=1)
-        if not finite.all():
-            bad = np.flatnonzero(~finite)
-            raise InvalidValuesError(
-                f"{len(bad)} unit(s) have NaN or infinite values, ids {examples(self._ids[bad])}; "
-                "drop or impute them (and subset the weights) first",
-                count=len(bad),
-                positions=bad[:10].tolist(),
-                ids=list(self._ids[bad[:10]]),
-            )
-        return np.ascontiguousarray(arr), wrap
+        arr, wrap = aligned_values(self, values, allow_2d=True)
+        return wrap(core.lag(self._core(), arr, self._ids))
 
     # ---- health ------------------------------------------------------
     def audit(self) -> Audit:
@@ -307,32 +366,53 @@ class Weights:
         """
         from .audit import Audit
 
-        return Audit(self, call(_core.health, self._csr(), ids=self._ids))
+        return Audit(
+            ids=self._ids,
+            counts=self._neighbour_counts(),
+            stored=np.diff(self._indptr),
+            facts=core.health(self._core(), self._ids),
+            density=self.density,
+            duplicates=self._duplicates,
+            origin=self._recipe[0] if self._recipe else None,
+        )
 
-    def plot_counts(self, ax=None):
+    def plot_counts(self, ax: Any = None) -> Any:
         """Bar chart of neighbour counts (islands highlighted); returns the matplotlib Axes."""
         from .plots import plot_counts
 
-        return plot_counts(self, ax=ax)
+        return plot_counts(self._neighbour_counts(), ax=ax)
 
-    def plot_links(self, locations, ax=None):
+    def plot_links(self, locations: Any, ax: Any = None) -> Any:
         """Links drawn between unit centres over the polygons or points, islands and
         smaller components marked; returns the matplotlib Axes.
         """
         from .plots import plot_links
 
-        return plot_links(self, locations, ax=ax)
+        xy, geoms = unit_locations(locations, self._ids)
+        labels, _ = core.components(self._core(), self._ids)
+        pairs = core.undirected_pairs(self._core(), self._ids)
+        return plot_links(xy, geoms, pairs, labels, self._neighbour_counts(), ax=ax)
 
     # ---- algebra -------------------------------------------------------
     def _rebuild(
-        self, csr, step: Step, *, source=None, ids=None, keep=None, duplicates="same", new_distances=None
+        self,
+        csr: core.Csr,
+        step: Step,
+        *,
+        source: np.ndarray | None = None,
+        ids: pd.Index | None = None,
+        keep: np.ndarray | None = None,
+        duplicates: int | None | Literal["same"] = "same",
+        new_distances: list[float] | None = None,
     ) -> Weights:
-        """New weights from core buffers. ``source`` maps each new entry to the entry it came
-        from (-1: new), carrying per-link facts (NaN for new entries); without it they are
-        dropped. ``new_distances`` (one per new entry, in entry order) fills the new entries'
-        ``distance``. ``keep`` (positions) selects the per-unit facts.
+        """New weights from core buffers.
+
+        ``source`` maps each new entry to the entry it came from (-1: new),
+        carrying per-link facts (NaN for new entries); without it they are
+        dropped. ``new_distances`` (one per new entry, in entry order) fills
+        the new entries' ``distance``. ``keep`` (positions) selects the
+        per-unit facts.
         """
-        indptr, indices, data = csr
         links = None
         if source is not None:
             src = np.asarray(source)
@@ -344,18 +424,11 @@ class Weights:
                 links.setdefault("distance", np.full(len(src), np.nan))[src < 0] = new_distances
         units = self._units if keep is None else {k: v[keep] for k, v in self._units.items()}
         dup = self._duplicates if duplicates == "same" else duplicates
-        return Weights(
-            indptr,
-            indices,
-            data,
-            self._ids if ids is None else ids,
-            self._recipe + (step,),
-            links=links,
-            units=units,
-            duplicates=dup,
+        return Weights._make(
+            csr, self._ids if ids is None else ids, (*self._recipe, step), links=links, units=units, duplicates=dup
         )
 
-    def symmetrize(self, how: str = "union") -> Weights:
+    def symmetrize(self, how: Literal["union", "intersection", "mean"] = "union") -> Weights:
         """A symmetric copy, from w_ij and w_ji (a missing link weighs 0).
 
         ``union``: max(w_ij, w_ji), a link in either direction makes a link
@@ -365,7 +438,7 @@ class Weights:
         border length) are not carried over.
         """
         choice(how, "symmetrize rule", ("union", "intersection", "mean"))
-        out = call(_core.symmetrize, self._csr(), how, ids=self._ids)
+        out = core.symmetrize(self._core(), how, self._ids)
         return self._rebuild(out, Step("symmetrize", {"how": how}))
 
     def order(self, k: int, *, cumulative: bool = False) -> Weights:
@@ -378,7 +451,7 @@ class Weights:
         k = whole_number(k, "k", minimum=1)
         if not isinstance(cumulative, (bool, np.bool_)):
             raise InvalidParameterTypeError(f"cumulative must be True or False, got {cumulative!r}")
-        out = call(_core.order, self._csr(), k, bool(cumulative), ids=self._ids)
+        out = core.order(self._core(), k, bool(cumulative), self._ids)
         return self._rebuild(out, Step("order", {"k": k, "cumulative": bool(cumulative)}))
 
     def _combine(self, other, op: str, symbol: str) -> Weights:
@@ -390,7 +463,7 @@ class Weights:
                 f"({self.n} and {other.n} units here); use other.align(weights.ids) to reorder, or "
                 "subset(ids) / drop(ids) on either to keep only the units they share"
             )
-        out = call(_core.combine, self._csr(), other._csr(), op, ids=self._ids)
+        out = core.combine(self._core(), other._core(), op, self._ids)
         step = Step(op, {"other": " -> ".join(str(s) for s in other._recipe) or "(given matrix)"})
         return self._rebuild(out, step)
 
@@ -423,7 +496,7 @@ class Weights:
     def _select(self, keep: np.ndarray, step: Step) -> Weights:
         if len(keep) == 0:
             raise IdError("no unit would remain; weights need at least one unit")
-        out, source = call(_core.select, self._csr(), keep, ids=self._ids)
+        out, source = core.select(self._core(), keep, self._ids)
         scaled = self._scaled_by()
         if scaled and len(keep) < self.n and len(source) < np.diff(self._indptr)[keep].sum():
             warnings.warn(
@@ -492,9 +565,7 @@ class Weights:
                 return None  # binary from here on
         return None
 
-    def _repair(self, fn, locations, metric: str, weight, step_name: str, params: dict) -> Weights:
-        from .geometry import unit_locations
-
+    def _repair(self, locations: Any, metric: str, weight: Any, step_name: str, params: dict[str, Any]) -> Weights:
         choice(metric, "metric", ("euclidean", "great_circle"))
         weight = real_number(weight, "weight")
         if not (np.isfinite(weight) and weight > 0):
@@ -506,15 +577,10 @@ class Weights:
                 "so that the new links are scaled like the others"
             )
         xy, _ = unit_locations(locations, self._ids)
-        out, source, added = call(
-            fn,
-            self._csr(),
-            np.ascontiguousarray(xy, dtype=np.float64).reshape(-1),
-            metric,
-            *params.values(),
-            weight,
-            ids=self._ids,
-        )
+        if step_name == "connect_islands":
+            out, source, added = core.connect_islands(self._core(), xy, metric, params["k"], weight, self._ids)
+        else:
+            out, source, added = core.connect_components(self._core(), xy, metric, weight, self._ids)
         step = Step(step_name, {**params, "metric": metric, "weight": weight, "links_added": len(added)})
         # the new entries and the core's list of added links are both in (row, column) order
         return self._rebuild(out, step, source=source, new_distances=[d for _, _, d in added])
@@ -536,7 +602,7 @@ class Weights:
         old links without a distance have NaN there.
         """
         k = whole_number(k, "k", minimum=1)
-        return self._repair(_core.connect_islands, locations, metric, weight, "connect_islands", {"k": k})
+        return self._repair(locations, metric, weight, "connect_islands", {"k": k})
 
     def connect_components(self, locations, *, metric: str = "euclidean", weight: float = 1.0) -> Weights:
         """Link each smaller connected component to the largest, through the
@@ -545,11 +611,11 @@ class Weights:
         Locations, weights and symmetry as in :meth:`connect_islands`;
         islands are components of one unit and are linked too.
         """
-        return self._repair(_core.connect_components, locations, metric, weight, "connect_components", {})
+        return self._repair(locations, metric, weight, "connect_components", {})
 
     # ---- display -----------------------------------------------------
-    def _summary(self) -> dict:
-        counts = np.diff(self._indptr)
+    def _summary(self) -> dict[str, str]:
+        counts = self._neighbour_counts()
         return {
             "units": f"{self.n:,}",
             "links": f"{self.nnz:,}",
@@ -577,35 +643,22 @@ class Weights:
         return f"<div><strong>vicino.Weights</strong><table>{rows}</table></div>"
 
 
-def id_differences(ids: pd.Index, index: pd.Index, *, missing: str, extra: str) -> list[str]:
-    """Phrases naming the ids in ``ids`` but not in ``index`` and the reverse (empty when the sets agree)."""
-    parts = []
-    for found, label in ((ids.difference(index, sort=False), missing), (index.difference(ids, sort=False), extra)):
-        if len(found):
-            parts.append(f"{len(found)} {label}: {examples(found)}")
-    return parts
+def _restore(indptr, indices, data, ids, recipe, links, units, duplicates) -> Weights:
+    """Unpickle a Weights (the buffers were checked when it was first made)."""
+    return Weights._make((indptr, indices, data), ids, recipe, links=links, units=units, duplicates=duplicates)
 
 
-def check_index(index: pd.Index, ids: pd.Index, what: str = "values") -> None:
-    """Require ``index`` to equal ``ids`` element by element, explaining any mismatch."""
-    if index.equals(ids):
-        return
-    if len(index) != len(ids):
-        raise IdError(f"the {what} have {len(index)} rows but the weights have {len(ids)} units")
-    parts = id_differences(ids, index, missing=f"id(s) without {what}", extra=f"{what} whose index is not an id")
-    if parts:
-        raise IdError(f"the {what}' index does not match the weights' ids (" + "; ".join(parts) + ")")
-    raise IdError(
-        f"the {what}' index holds the same ids as the weights but in another order; "
-        f"reorder them with {what}.reindex(weights.ids) (vicino never reorders silently)"
-    )
+# ---- the internal interface other modules use -------------------------------------
+def core_matrix(w: Weights) -> core.CoreMatrix:
+    """(n, indptr, indices, data) of ``w``, as the core takes a matrix."""
+    return w._core()
 
 
-def call(fn, *args, ids: pd.Index | None = None):
-    """Call the core; errors that name positions are reworded to name ids."""
-    try:
-        return fn(*args)
-    except VicinoError as err:
-        if ids is not None and err.positions:
-            raise name_positions(err, ids) from None
-        raise
+def neighbour_counts(w: Weights) -> npt.NDArray[np.int64]:
+    """Links of each unit to other units, as an array in unit order."""
+    return w._neighbour_counts()
+
+
+def aligned_values(w: Weights, values: Any, *, allow_2d: bool) -> tuple[np.ndarray, Callable[[np.ndarray], Any]]:
+    """Values as a float64 array in the weights' unit order, and a function that wraps results back."""
+    return as_values(values, w.ids, allow_2d=allow_2d)

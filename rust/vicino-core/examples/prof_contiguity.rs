@@ -7,6 +7,7 @@ use std::time::Instant;
 use vicino_core::contiguity::{contiguity, Rule};
 use vicino_core::io::wkb::decode_polygons;
 use vicino_core::neighbors::Metric;
+use vicino_core::Guard;
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();
     let bytes = std::fs::read(&args[0]).expect("read wkb");
@@ -23,7 +24,7 @@ fn main() {
         let check = t.elapsed();
         for rule in [Rule::Queen, Rule::Rook] {
             let t = Instant::now();
-            let c = contiguity(&p, rule, 0.0, Metric::Euclidean).unwrap();
+            let c = contiguity(&p, rule, 0.0, Metric::Euclidean, &Guard::unlimited()).unwrap();
             println!("decode {decode:?} check {check:?} {rule:?} {:?} links {}", t.elapsed(), c.graph.view().nnz());
         }
     }

@@ -2,6 +2,7 @@
 //! `cargo run --release --example prof_knn -- [n] [k]`.
 use std::time::Instant;
 use vicino_core::neighbors::{k_nearest, within_distance, Metric};
+use vicino_core::Guard;
 fn main() {
     let mut args = std::env::args().skip(1);
     let n: usize = args.next().map(|s| s.parse().unwrap()).unwrap_or(1_000_000);
@@ -14,10 +15,16 @@ fn main() {
     let xy: Vec<f64> = (0..2 * n).map(|_| rnd()).collect();
     for _ in 0..3 {
         let t = Instant::now();
-        let nb = k_nearest(&xy, k, Metric::Euclidean).unwrap();
+        let nb = k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap();
         let a = t.elapsed();
         let t = Instant::now();
-        let r = within_distance(&xy, (k as f64 / (std::f64::consts::PI * n as f64)).sqrt(), Metric::Euclidean).unwrap();
+        let r = within_distance(
+            &xy,
+            (k as f64 / (std::f64::consts::PI * n as f64)).sqrt(),
+            Metric::Euclidean,
+            &Guard::unlimited(),
+        )
+        .unwrap();
         println!(
             "k_nearest {:?} ({} links); within_distance {:?} ({} links)",
             a,

@@ -6,6 +6,7 @@ use vicino_core::neighbors::{k_nearest, Metric};
 use vicino_core::standardize::{standardize, Islands, Method};
 use vicino_core::stats::moments::weight_sums;
 use vicino_core::stats::permutation::{shuffle, stream};
+use vicino_core::Guard;
 fn main() {
     let n = 100_000;
     let mut s = 1u64;
@@ -14,8 +15,8 @@ fn main() {
         (s >> 11) as f64 / (1u64 << 53) as f64
     };
     let xy: Vec<f64> = (0..2 * n).map(|_| rnd()).collect();
-    let nb = k_nearest(&xy, 8, Metric::Euclidean).unwrap();
-    let d = standardize(nb.graph.view(), Method::Row, Islands::Raise).unwrap();
+    let nb = k_nearest(&xy, 8, Metric::Euclidean, &Guard::unlimited()).unwrap();
+    let d = standardize(nb.graph.view(), Method::Row, Islands::Raise, &Guard::unlimited()).unwrap();
     let w = nb.graph.view().with_data(d);
     let z: Vec<f64> = (0..n).map(|_| rnd() - 0.5).collect();
     let t = Instant::now();

@@ -3,6 +3,7 @@
 use std::time::Instant;
 use vicino_core::neighbors::{within_distance, Metric};
 use vicino_core::spectral::spectral_radius;
+use vicino_core::Guard;
 fn main() {
     let n: usize = std::env::args().nth(1).map(|s| s.parse().unwrap()).unwrap_or(10_000);
     let mut s = 12345u64;
@@ -11,9 +12,11 @@ fn main() {
         (s >> 11) as f64 / (1u64 << 53) as f64
     };
     let xy: Vec<f64> = (0..2 * n).map(|_| rnd()).collect();
-    let nb = within_distance(&xy, (8.0 / (std::f64::consts::PI * n as f64)).sqrt(), Metric::Euclidean).unwrap();
+    let nb =
+        within_distance(&xy, (8.0 / (std::f64::consts::PI * n as f64)).sqrt(), Metric::Euclidean, &Guard::unlimited())
+            .unwrap();
     let w = nb.graph.view().with_data(vec![1.0; nb.graph.view().nnz()]);
     let t = Instant::now();
-    let r = spectral_radius(w.view());
+    let r = spectral_radius(w.view(), &Guard::unlimited());
     println!("{:?} in {:?}", r, t.elapsed());
 }

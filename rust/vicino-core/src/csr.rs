@@ -4,11 +4,16 @@
 //! buffers without copying.
 //!
 //! [`Csr`] owns its buffers; [`CsrRef`] borrows them (from NumPy, without a
-//! copy). Full structural validation is delegated to `sprs`, whose matrix type
-//! is also used for the transposes and sums that the statistics need.
+//! copy). Full structural validation is delegated to `sprs`.
 //! Validation is O(nnz); every other constructor here is O(n) or cheaper.
+//!
+//! A link is a stored entry, and every stored weight is positive and finite;
+//! a unit without a link to another unit is an island (a self-link alone
+//! does not make a neighbour). Every matrix of the crate is built by
+//! [`build_rows`], and every walk over two sorted rows at once is
+//! [`merge_rows`].
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Link, Result};
 use rayon::prelude::*;
 
 /// Below this many stored entries, loops stay serial.
@@ -28,6 +33,133 @@ pub(crate) fn prefetch<T>(x: &[T], j: usize) {
     }
     #[cfg(not(target_arch = "x86_64"))]
     let _ = (x, j);
+}
+
+/// Rows per block of [`build_rows`].
+const BUILD_BLOCK: usize = 2048;
+
+/// CSR buffers (indptr, indices, data).
+pub type Parts<T> = (Vec<i64>, Vec<i64>, Vec<T>);
+
+/// The one CSR builder: `row(state, i, cols, vals)` appends the entries of
+/// row i, sorted by column. Rows are produced in blocks, in parallel when
+/// `parallel`, each block into its own buffers with a `state` from `init`
+/// per thread (scratch space); the blocks are stitched in row order, so the
+/// result never depends on the thread count. With `visit`, a permutation of
+/// the rows, rows are produced in that order (for locality) and then moved
+/// to row order. The first error of a row stops the build.
+pub fn build_rows<T, S, F>(
+    n: usize,
+    visit: Option<&[usize]>,
+    parallel: bool,
+    init: impl Fn() -> S + Sync,
+    row: F,
+) -> Result<Parts<T>>
+where
+    T: Copy + Default + Send + Sync,
+    S: Send,
+    F: Fn(&mut S, usize, &mut Vec<i64>, &mut Vec<T>) -> Result<()> + Sync,
+{
+    debug_assert!(visit.is_none_or(|v| v.len() == n));
+    let unit = |k: usize| visit.map_or(k, |v| v[k]);
+    let block = |state: &mut S, b: usize| -> Result<(Vec<i64>, Vec<T>, Vec<i64>)> {
+        let (mut cols, mut vals, mut lens) = (Vec::new(), Vec::new(), Vec::new());
+        for k in b * BUILD_BLOCK..((b + 1) * BUILD_BLOCK).min(n) {
+            let before = cols.len();
+            row(state, unit(k), &mut cols, &mut vals)?;
+            debug_assert!(cols[before..].windows(2).all(|p| p[0] < p[1]), "rows must be sorted");
+            lens.push((cols.len() - before) as i64);
+        }
+        Ok((cols, vals, lens))
+    };
+    let blocks = n.div_ceil(BUILD_BLOCK);
+    let parts: Vec<(Vec<i64>, Vec<T>, Vec<i64>)> = if parallel {
+        (0..blocks).into_par_iter().map_init(&init, block).collect::<Result<_>>()?
+    } else {
+        let mut state = init();
+        (0..blocks).map(|b| block(&mut state, b)).collect::<Result<_>>()?
+    };
+    if visit.is_none() {
+        let mut indptr = Vec::with_capacity(n + 1);
+        indptr.push(0i64);
+        for (_, _, lens) in &parts {
+            for &l in lens {
+                indptr.push(indptr[indptr.len() - 1] + l);
+            }
+        }
+        let total = indptr[n] as usize;
+        let (mut indices, mut data) = (Vec::with_capacity(total), Vec::with_capacity(total));
+        for (c, v, _) in parts {
+            indices.extend_from_slice(&c);
+            data.extend_from_slice(&v);
+        }
+        return Ok((indptr, indices, data));
+    };
+    // where each visited row sits in its block, then every row moved to its place
+    let mut source = vec![(0u32, 0usize, 0usize); n]; // (block, start, len) by row
+    for (b, (_, _, lens)) in parts.iter().enumerate() {
+        let mut start = 0usize;
+        for (o, &l) in lens.iter().enumerate() {
+            source[unit(b * BUILD_BLOCK + o)] = (b as u32, start, l as usize);
+            start += l as usize;
+        }
+    }
+    let mut indptr = Vec::with_capacity(n + 1);
+    indptr.push(0i64);
+    for &(_, _, l) in &source {
+        indptr.push(indptr[indptr.len() - 1] + l as i64);
+    }
+    let total = indptr[n] as usize;
+    let (mut indices, mut data) = (vec![0i64; total], vec![T::default(); total]);
+    // split the output at block boundaries of rows, then fill blocks in parallel
+    let mut pieces = Vec::with_capacity(blocks);
+    let (mut rest_c, mut rest_v) = (&mut indices[..], &mut data[..]);
+    for b in 0..blocks {
+        let (lo, hi) = (b * BUILD_BLOCK, ((b + 1) * BUILD_BLOCK).min(n));
+        let len = (indptr[hi] - indptr[lo]) as usize;
+        let (c, rc) = rest_c.split_at_mut(len);
+        let (v, rv) = rest_v.split_at_mut(len);
+        pieces.push((lo..hi, c, v));
+        (rest_c, rest_v) = (rc, rv);
+    }
+    let fill = |(rows, c, v): (std::ops::Range<usize>, &mut [i64], &mut [T])| {
+        let mut at = 0;
+        for i in rows {
+            let (b, start, len) = source[i];
+            let (pc, pv, _) = &parts[b as usize];
+            c[at..at + len].copy_from_slice(&pc[start..start + len]);
+            v[at..at + len].copy_from_slice(&pv[start..start + len]);
+            at += len;
+        }
+    };
+    if parallel {
+        pieces.into_par_iter().for_each(fill);
+    } else {
+        pieces.into_iter().for_each(fill);
+    }
+    Ok((indptr, indices, data))
+}
+
+/// Walk two sorted rows at once, calling `f(col, a, b)` for every column in
+/// either: `a` is (position in the first row, its value) when the first row
+/// has the column, `b` the second row's value when it has it.
+#[inline]
+pub fn merge_rows(
+    ac: &[i64],
+    av: &[f64],
+    bc: &[i64],
+    bv: &[f64],
+    mut f: impl FnMut(i64, Option<(usize, f64)>, Option<f64>),
+) {
+    let (mut p, mut q) = (0, 0);
+    while p < ac.len() || q < bc.len() {
+        let take_a = q == bc.len() || (p < ac.len() && ac[p] <= bc[q]);
+        let take_b = p == ac.len() || (q < bc.len() && bc[q] <= ac[p]);
+        let col = if take_a { ac[p] } else { bc[q] };
+        f(col, take_a.then(|| (p, av[p])), take_b.then(|| bv[q]));
+        p += take_a as usize;
+        q += take_b as usize;
+    }
 }
 
 /// Rows per block of the reverse-link scan.
@@ -83,22 +215,32 @@ impl<'a> CsrRef<'a> {
     /// Borrow buffers after a full check: canonical structure (via `sprs`),
     /// finite and non-negative weights. O(nnz).
     pub fn validated(n: usize, indptr: &'a [i64], indices: &'a [i64], data: &'a [f64]) -> Result<Self> {
-        check_shape(n, indptr, indices, data)?;
-        sprs::CsMatViewI::<f64, i64, i64>::try_new((n, n), indptr, indices, data)
-            .map_err(|e| Error::InvalidMatrix { reason: e.3.to_string() })?;
-        let this = Self { n, indptr, indices, data };
+        let this = Self::structured(n, indptr, indices, data)?;
         for row in 0..n {
             let (cols, vals) = this.row(row);
             for (&c, &v) in cols.iter().zip(vals) {
+                let link = Link(row, c as usize);
                 if !v.is_finite() {
-                    return Err(Error::NonFiniteWeight { row, col: c as usize, value: v });
+                    return Err(Error::NonFiniteWeight { link, value: v });
                 }
                 if v < 0.0 {
-                    return Err(Error::NegativeWeight { row, col: c as usize, value: v });
+                    return Err(Error::NegativeWeight { link, value: v });
+                }
+                if v == 0.0 {
+                    return Err(Error::ZeroWeight { link });
                 }
             }
         }
         Ok(this)
+    }
+
+    /// Borrow buffers after checking the canonical structure only (via
+    /// `sprs`), whatever the values. O(nnz).
+    pub fn structured(n: usize, indptr: &'a [i64], indices: &'a [i64], data: &'a [f64]) -> Result<Self> {
+        check_shape(n, indptr, indices, data)?;
+        sprs::CsMatViewI::<f64, i64, i64>::try_new((n, n), indptr, indices, data)
+            .map_err(|e| Error::InvalidMatrix { reason: e.3.to_string() })?;
+        Ok(Self { n, indptr, indices, data })
     }
 
     /// Number of units (rows and columns).
@@ -131,9 +273,14 @@ impl<'a> CsrRef<'a> {
         self.indptr.windows(2).map(|w| (w[1] - w[0]) as usize).collect()
     }
 
-    /// Rows with no stored entry of positive weight: units without neighbours.
+    /// Links of each unit to other units (a self-link is not a neighbour).
+    pub fn neighbour_counts(&self) -> Vec<usize> {
+        (0..self.n).map(|i| self.row(i).0.iter().filter(|&&j| j as usize != i).count()).collect()
+    }
+
+    /// Units without a link to another unit: islands.
     pub fn islands(&self) -> Vec<usize> {
-        (0..self.n).filter(|&i| self.row(i).1.iter().all(|&v| v == 0.0)).collect()
+        (0..self.n).filter(|&i| self.row(i).0.iter().all(|&j| j as usize == i)).collect()
     }
 
     /// Sum of each row.
@@ -205,29 +352,22 @@ impl<'a> CsrRef<'a> {
     pub fn plus_transpose(&self) -> Csr {
         let t = self.transpose();
         let tv = t.view();
-        let mut indptr = Vec::with_capacity(self.n + 1);
-        indptr.push(0i64);
-        let mut indices = Vec::with_capacity(2 * self.nnz());
-        let mut data = Vec::with_capacity(2 * self.nnz());
-        for i in 0..self.n {
-            let (ac, av) = self.row(i);
-            let (bc, bv) = tv.row(i);
-            let (mut p, mut q) = (0, 0);
-            while p < ac.len() || q < bc.len() {
-                let take_a = q == bc.len() || (p < ac.len() && ac[p] <= bc[q]);
-                let take_b = p == ac.len() || (q < bc.len() && bc[q] <= ac[p]);
-                let (col, val) = match (take_a, take_b) {
-                    (true, true) => (ac[p], av[p] + bv[q]),
-                    (true, false) => (ac[p], av[p]),
-                    _ => (bc[q], bv[q]),
-                };
-                p += take_a as usize;
-                q += take_b as usize;
-                indices.push(col);
-                data.push(val);
-            }
-            indptr.push(indices.len() as i64);
-        }
+        let parallel = self.nnz() >= PARALLEL_MIN_NNZ;
+        let (indptr, indices, data) = build_rows(
+            self.n,
+            None,
+            parallel,
+            || (),
+            |_, i, cols, vals| {
+                let ((ac, av), (bc, bv)) = (self.row(i), tv.row(i));
+                merge_rows(ac, av, bc, bv, |c, x, y| {
+                    cols.push(c);
+                    vals.push(x.map_or(0.0, |x| x.1) + y.unwrap_or(0.0));
+                });
+                Ok(())
+            },
+        )
+        .expect("rows of a merge never fail");
         Csr { n: self.n, indptr, indices, data }
     }
 
@@ -308,30 +448,41 @@ impl Csr {
         Ok(Self { n, indptr, indices, data })
     }
 
-    /// Own buffers that this crate built in canonical form (checked in debug builds).
+    /// Own buffers that this crate built in canonical form (the structure is
+    /// checked in debug builds; values are the builder's business: link
+    /// weights are positive, other per-link facts may be 0).
     pub(crate) fn from_canonical(n: usize, indptr: Vec<i64>, indices: Vec<i64>, data: Vec<f64>) -> Self {
-        debug_assert!(CsrRef::validated(n, &indptr, &indices, &data).is_ok());
+        debug_assert!(CsrRef::structured(n, &indptr, &indices, &data).is_ok());
         Self { n, indptr, indices, data }
     }
 
     /// Build from per-row lists of `(column, value)`, sorting each row by
     /// column. Rows must not repeat a column.
-    pub fn from_rows(rows: Vec<Vec<(usize, f64)>>) -> Self {
+    pub fn from_rows(mut rows: Vec<Vec<(usize, f64)>>) -> Self {
         let n = rows.len();
-        let mut indptr = Vec::with_capacity(n + 1);
-        indptr.push(0i64);
+        rows.iter_mut().for_each(|r| r.sort_unstable_by_key(|&(c, _)| c));
         let nnz: usize = rows.iter().map(Vec::len).sum();
-        let mut indices = Vec::with_capacity(nnz);
-        let mut data = Vec::with_capacity(nnz);
-        for mut r in rows {
-            r.sort_unstable_by_key(|&(c, _)| c);
-            for (c, v) in r {
-                indices.push(c as i64);
-                data.push(v);
-            }
-            indptr.push(indices.len() as i64);
-        }
-        Self { n, indptr, indices, data }
+        let (indptr, indices, data) = build_rows(
+            n,
+            None,
+            nnz >= PARALLEL_MIN_NNZ,
+            || (),
+            |_, i, cols, vals| {
+                for &(c, v) in &rows[i] {
+                    cols.push(c as i64);
+                    vals.push(v);
+                }
+                Ok(())
+            },
+        )
+        .expect("copying rows never fails");
+        Self::from_canonical(n, indptr, indices, data)
+    }
+
+    /// Own the buffers of [`build_rows`] (canonical by construction).
+    pub(crate) fn from_parts(n: usize, parts: Parts<f64>) -> Self {
+        let (indptr, indices, data) = parts;
+        Self::from_canonical(n, indptr, indices, data)
     }
 
     /// Borrow.
@@ -361,7 +512,7 @@ mod tests {
         assert!(Csr::new(2, vec![0, 2, 2], vec![1, 0], vec![1.0, 1.0]).is_err());
         assert!(matches!(
             Csr::new(2, vec![0, 1, 1], vec![1], vec![-1.0]),
-            Err(Error::NegativeWeight { row: 0, col: 1, .. })
+            Err(Error::NegativeWeight { link: Link(0, 1), .. })
         ));
         assert!(matches!(Csr::new(2, vec![0, 1, 1], vec![1], vec![f64::NAN]), Err(Error::NonFiniteWeight { .. })));
         assert!(Csr::new(2, vec![0, 1, 2], vec![1, 0], vec![1.0, 2.0]).is_ok());

@@ -1,6 +1,15 @@
-//! Errors of the core. Every variant carries the values that explain it, so the
-//! binding can build a message that says what is wrong and what to do.
+//! Errors of the core. Every variant carries the values that explain it, so
+//! the binding can build a message that says what is wrong and what to do.
+//!
+//! Units are named by position through four small types ([`Unit`],
+//! [`Pair`], [`Link`], [`Units`]). Their `Display` reads "unit at position
+//! 3" and so on; [`template`] renders a message with a marker in their place
+//! instead, and lists what each marker stands for, so that a caller that
+//! knows the units' ids (the Python binding) can name the ids without
+//! parsing the text.
 
+use std::cell::RefCell;
+use std::fmt;
 use thiserror::Error;
 
 /// Which axis of a coordinate pair a message talks about.
@@ -12,6 +21,127 @@ pub fn axis_name(axis: usize) -> &'static str {
     }
 }
 
+/// What a marker in a [`template`] stands for.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Named {
+    /// One unit: "unit at position 3".
+    Unit(usize),
+    /// Two units: "units at positions 3 and 5".
+    Pair(usize, usize),
+    /// A link: "link from position 3 to position 5".
+    Link(usize, usize),
+    /// Some of `count` units: "positions 3, 5 and 12 more".
+    Units { first: Vec<usize>, count: usize },
+}
+
+impl Named {
+    /// Every position named.
+    pub fn positions(&self) -> Vec<usize> {
+        match self {
+            Named::Unit(i) => vec![*i],
+            Named::Pair(i, j) | Named::Link(i, j) => vec![*i, *j],
+            Named::Units { first, .. } => first.clone(),
+        }
+    }
+}
+
+thread_local! {
+    /// Set while [`template`] renders: what each marker stands for.
+    static MARKERS: RefCell<Option<Vec<Named>>> = const { RefCell::new(None) };
+}
+
+/// The character that encloses a marker's number in a template.
+pub const MARK: char = '\u{1}';
+
+fn write_named(f: &mut fmt::Formatter<'_>, named: Named) -> fmt::Result {
+    let marked = MARKERS.with(|m| {
+        m.borrow_mut().as_mut().map(|list| {
+            list.push(named.clone());
+            list.len() - 1
+        })
+    });
+    if let Some(k) = marked {
+        return write!(f, "{MARK}{k}{MARK}");
+    }
+    match named {
+        Named::Unit(i) => write!(f, "unit at position {i}"),
+        Named::Pair(i, j) => write!(f, "units at positions {i} and {j}"),
+        Named::Link(i, j) => write!(f, "link from position {i} to position {j}"),
+        Named::Units { first, count } => {
+            let shown: Vec<String> = first.iter().map(|p| p.to_string()).collect();
+            write!(f, "positions {}", shown.join(", "))?;
+            if count > first.len() {
+                write!(f, " and {} more", count - first.len())?;
+            }
+            Ok(())
+        }
+    }
+}
+
+/// One unit named in a message.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Unit(pub usize);
+/// Two units named in a message.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Pair(pub usize, pub usize);
+/// A link (row i, column j) named in a message.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Link(pub usize, pub usize);
+/// The first few of `count` units named in a message.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Units {
+    pub first: Vec<usize>,
+    pub count: usize,
+}
+
+impl fmt::Display for Unit {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write_named(f, Named::Unit(self.0))
+    }
+}
+impl fmt::Display for Pair {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write_named(f, Named::Pair(self.0, self.1))
+    }
+}
+impl fmt::Display for Link {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write_named(f, Named::Link(self.0, self.1))
+    }
+}
+impl fmt::Display for Units {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write_named(f, Named::Units { first: self.first.clone(), count: self.count })
+    }
+}
+
+impl Units {
+    /// The first few positions for which `bad` holds, and how many there are.
+    pub fn find(len: usize, bad: impl Fn(usize) -> bool) -> Units {
+        let mut count = 0;
+        let mut first = Vec::new();
+        for i in 0..len {
+            if bad(i) {
+                count += 1;
+                if first.len() < FIRST_FEW {
+                    first.push(i);
+                }
+            }
+        }
+        Units { first, count }
+    }
+
+    /// The first few of the given positions.
+    pub fn of(all: &[usize]) -> Units {
+        Units { first: all.iter().copied().take(FIRST_FEW).collect(), count: all.len() }
+    }
+
+    /// Whether there are none.
+    pub fn is_empty(&self) -> bool {
+        self.count == 0
+    }
+}
+
 /// Everything the core can refuse.
 #[derive(Debug, Clone, PartialEq, Error)]
 pub enum Error {
@@ -20,29 +150,36 @@ pub enum Error {
     #[error("coordinates must come as pairs: got {len} numbers, which is not a multiple of 2")]
     OddCoordinates { len: usize },
     #[error(
-        "coordinate {} of unit at position {index} is {value}; coordinates must be finite \
+        "coordinate {} of {unit} is {value}; coordinates must be finite \
          (drop or impute units with missing locations first)",
         axis_name(*axis)
     )]
-    NonFiniteCoordinate { index: usize, axis: usize, value: f64 },
+    NonFiniteCoordinate { unit: Unit, axis: usize, value: f64 },
     #[error(
-        "coordinate {} of unit at position {index} is {value:e}; coordinates larger than 1e150 \
+        "coordinate {} of {unit} is {value:e}; coordinates larger than 1e150 \
          in magnitude overflow squared distances: rescale them (for example to kilometres)",
         axis_name(*axis)
     )]
-    CoordinateTooLarge { index: usize, axis: usize, value: f64 },
+    CoordinateTooLarge { unit: Unit, axis: usize, value: f64 },
     #[error(
-        "latitude of unit at position {index} is {value}, outside [-90, 90]; \
+        "coordinate {} of {unit} is {value:e}, more than 10^138 times smaller than the largest \
+         coordinate ({largest:e}): at that span squared distances underflow and nearby units \
+         cannot be told apart; round such tiny values to 0",
+        axis_name(*axis)
+    )]
+    CoordinateSpan { unit: Unit, axis: usize, value: f64, largest: f64 },
+    #[error(
+        "latitude of {unit} is {value}, outside [-90, 90]; \
          great_circle expects (longitude, latitude) in degrees, in that order"
     )]
-    LatitudeOutOfRange { index: usize, value: f64 },
+    LatitudeOutOfRange { unit: Unit, value: f64 },
     #[error(
-        "longitude of unit at position {index} is {value}, outside [-180, 360]; \
+        "longitude of {unit} is {value}, outside [-180, 360]; \
          great_circle expects (longitude, latitude) in degrees, in that order"
     )]
-    LongitudeOutOfRange { index: usize, value: f64 },
-    #[error("unit at position {unit} has an unreadable geometry: {reason}")]
-    InvalidGeometry { unit: usize, reason: String },
+    LongitudeOutOfRange { unit: Unit, value: f64 },
+    #[error("{unit} has an unreadable geometry: {reason}")]
+    InvalidGeometry { unit: Unit, reason: String },
     #[error(
         "unknown contiguity rule {name:?}: use \"queen\" (a shared point) or \"rook\" (a shared stretch of border)"
     )]
@@ -50,14 +187,16 @@ pub enum Error {
     #[error("tolerance = {tolerance} is not usable: give a finite number >= 0 in the units of the coordinates")]
     InvalidTolerance { tolerance: f64 },
     #[error(
-        "units at positions {i} and {j} are neighbours but their centroids coincide, so the \
-         distance term of the Cliff-Ord weight is infinite; use distance_power=0 or fix the geometry"
+        "{pair} are neighbours but their centroids coincide, so the distance term of the \
+         Cliff-Ord weight is infinite; use distance_power=0 or fix the geometry"
     )]
-    CoincidentCentroids { i: usize, j: usize },
+    CoincidentCentroids { pair: Pair },
     #[error("k = {k} is not possible with {n} units: k must be at least 1 and at most n - 1")]
     InvalidK { k: usize, n: usize },
     #[error("radius = {radius} is not usable: give a finite number >= 0 in the units of the distance")]
     InvalidRadius { radius: f64 },
+    #[error("{name} = {value} is not usable: give a finite number >= 0")]
+    InvalidPower { name: &'static str, value: f64 },
     #[error("unknown metric {name:?}: use \"euclidean\" or \"great_circle\"")]
     UnknownMetric { name: String },
     #[error(
@@ -68,53 +207,110 @@ pub enum Error {
     #[error("unknown alternative {name:?}: use \"two-sided\", \"greater\" or \"less\"")]
     UnknownAlternative { name: String },
     #[error(
-        "{count} unit(s) have no neighbours (islands), first at positions {first:?}; \
-         pass islands=\"keep\" to leave their rows empty, or choose weights that reach them"
+        "{} unit(s) have no neighbours (islands), {units}; pass islands=\"keep\" to leave their rows \
+         empty, or choose weights that reach them",
+        units.count
     )]
-    Islands { count: usize, first: Vec<usize> },
-    #[error("the weights have no links, or all weights are zero: {what} is undefined")]
+    Islands { units: Units },
+    #[error("the weights have no links: {what} is undefined")]
     NoWeight { what: &'static str },
     #[error("{what} has length {got} but the weights have {expected} units")]
     LengthMismatch { what: &'static str, expected: usize, got: usize },
-    #[error("{count} value(s) are NaN or infinite, first at positions {first:?}; drop or impute them first")]
-    NonFiniteValues { count: usize, first: Vec<usize> },
+    #[error("{} value(s) are NaN or infinite, {units}; drop or impute them first", units.count)]
+    NonFiniteValues { units: Units },
     #[error("the values are constant (zero variance): spatial autocorrelation is undefined")]
     ConstantValues,
     #[error("{what} needs at least {need} units, got {n}")]
     TooFewUnits { what: &'static str, need: usize, n: usize },
     #[error(
-        "{count} unit(s) are linked to themselves (w_ii > 0), first at positions {first:?}; \
-         the moments of {what} assume w_ii = 0: remove the diagonal first"
+        "{} unit(s) are linked to themselves (w_ii > 0), {units}; the moments of {what} assume \
+         w_ii = 0: remove the diagonal first",
+        units.count
     )]
-    SelfLinks { what: &'static str, count: usize, first: Vec<usize> },
+    SelfLinks { what: &'static str, units: Units },
     #[error("the matrix is not a valid sparse matrix: {reason}")]
     InvalidMatrix { reason: String },
     #[error("the matrix must be square, got shape ({rows}, {cols})")]
     NotSquare { rows: usize, cols: usize },
-    #[error("weight at row {row}, column {col} is {value}; weights must be finite")]
-    NonFiniteWeight { row: usize, col: usize, value: f64 },
-    #[error("weight at row {row}, column {col} is {value}; weights must be >= 0")]
-    NegativeWeight { row: usize, col: usize, value: f64 },
+    #[error("the weight of the {link} is {value}; weights must be finite")]
+    NonFiniteWeight { link: Link, value: f64 },
+    #[error("the weight of the {link} is {value}; weights must be >= 0")]
+    NegativeWeight { link: Link, value: f64 },
+    #[error(
+        "the weight of the {link} is stored as 0; a zero weight is no link: drop it \
+         (scipy: matrix.eliminate_zeros())"
+    )]
+    ZeroWeight { link: Link },
+    #[error(
+        "the {what} of the {link} is {value:e}, outside the range of floating point \
+         (about 1e-308 to 1e308): {advice}"
+    )]
+    WeightOutOfRange { what: &'static str, link: Link, value: f64, advice: &'static str },
+    #[error("{what} of {units} overflows the range of floating point (about 1e308): {advice}")]
+    Overflow { what: &'static str, units: Units, advice: &'static str },
     #[error("order k = {k} is not possible: k must be at least 1 (k = 1 is the weights' own links)")]
     InvalidOrder { k: usize },
     #[error("unknown {what} {name:?}: use one of {options}")]
     UnknownOption { what: &'static str, name: String, options: &'static str },
     #[error("position {position} is out of range for {n} units")]
     PositionOutOfRange { position: usize, n: usize },
-    #[error("the unit at position {position} is named twice; name each unit once")]
-    RepeatedPosition { position: usize },
-    #[error("the link from position {row} to position {col} exists already")]
-    LinkExists { row: usize, col: usize },
+    #[error("the {unit} is named twice; name each unit once")]
+    RepeatedPosition { unit: Unit },
+    #[error("the {link} exists already")]
+    LinkExists { link: Link },
     #[error(
-        "{count} unit(s) among the {what} have no location (empty geometry), first at positions {first:?}; \
-         drop them first (drop_islands() or drop(ids)), or give them a location"
+        "{} unit(s) among the {what} have no location (empty geometry), {units}; \
+         drop them first (drop_islands() or drop(ids)), or give them a location",
+        units.count
     )]
-    Unlocated { what: &'static str, count: usize, first: Vec<usize> },
+    Unlocated { what: &'static str, units: Units },
     #[error(
         "the largest eigenvalue did not converge in {iterations} iterations \
          (last estimate {estimate}); use \"max_entry\" or \"row\" instead, or report this case"
     )]
     NotConverged { iterations: usize, estimate: f64 },
+    #[error(
+        "{what} would need about {} of memory, more than the limit of {}: {advice} \
+         (vicino.set_memory_limit raises the limit)",
+        bytes_text(*needed), bytes_text(*limit as f64)
+    )]
+    TooLarge { what: &'static str, needed: f64, limit: u64, advice: &'static str },
+    #[error("interrupted")]
+    Interrupted,
+}
+
+/// A byte count for a message: "3.2 GB".
+pub fn bytes_text(b: f64) -> String {
+    const UNITS: [&str; 6] = ["bytes", "kB", "MB", "GB", "TB", "PB"];
+    let mut v = b;
+    let mut k = 0;
+    while v >= 1000.0 && k + 1 < UNITS.len() {
+        v /= 1000.0;
+        k += 1;
+    }
+    if k == 0 {
+        format!("{v:.0} {}", UNITS[k])
+    } else {
+        format!("{v:.1} {}", UNITS[k])
+    }
+}
+
+/// The message of `e` with a marker `\u{1}k\u{1}` in place of each mention
+/// of units, and what each marker k stands for.
+///
+/// ```
+/// use vicino_core::error::{template, Error, Named, Unit};
+/// let e = Error::InvalidGeometry { unit: Unit(4), reason: "a ring has only 2 points".into() };
+/// assert_eq!(e.to_string(), "unit at position 4 has an unreadable geometry: a ring has only 2 points");
+/// let (text, named) = template(&e);
+/// assert_eq!(text, "\u{1}0\u{1} has an unreadable geometry: a ring has only 2 points");
+/// assert_eq!(named, vec![Named::Unit(4)]);
+/// ```
+pub fn template(e: &Error) -> (String, Vec<Named>) {
+    MARKERS.with(|m| *m.borrow_mut() = Some(Vec::new()));
+    let text = e.to_string();
+    let named = MARKERS.with(|m| m.borrow_mut().take()).unwrap_or_default();
+    (text, named)
 }
 
 /// Result type of the core.
@@ -122,18 +318,3 @@ pub type Result<T> = std::result::Result<T, Error>;
 
 /// Up to this many positions are named in a message.
 pub const FIRST_FEW: usize = 10;
-
-/// The first few positions for which `bad` holds, and how many there are.
-pub fn first_positions(len: usize, bad: impl Fn(usize) -> bool) -> (usize, Vec<usize>) {
-    let mut count = 0;
-    let mut first = Vec::new();
-    for i in 0..len {
-        if bad(i) {
-            count += 1;
-            if first.len() < FIRST_FEW {
-                first.push(i);
-            }
-        }
-    }
-    (count, first)
-}

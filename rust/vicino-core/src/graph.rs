@@ -4,9 +4,10 @@
 //! neighbours, O(size of the output); rows are processed in parallel above
 //! a size threshold and the output never depends on the thread count.
 
-use crate::csr::{Csr, CsrRef, PARALLEL_MIN_NNZ};
-use crate::error::{Error, Result};
-use rayon::prelude::*;
+use crate::csr::{build_rows, merge_rows, Csr, CsrRef, PARALLEL_MIN_NNZ};
+use crate::error::{Error, Link, Result, Unit};
+use crate::guard::Guard;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Connected components, links taken in either direction (weak components
 /// of a directed graph).
@@ -70,7 +71,8 @@ pub fn components(w: CsrRef<'_>) -> Components {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Health {
     pub components: Components,
-    /// How many units name each unit as a neighbour (column counts).
+    /// How many other units name each unit as a neighbour (column counts,
+    /// self-links not counted).
     pub in_counts: Vec<usize>,
     /// Units linked to themselves.
     pub self_links: usize,
@@ -79,32 +81,15 @@ pub struct Health {
     /// The largest |w_ij - w_ji| (a missing link weighs 0), and where
     /// (i < j); None when the matrix is symmetric.
     pub max_asymmetry: Option<(f64, usize, usize)>,
-}
-
-/// Merge two sorted rows, calling `f(col, a, b)` for every column in either.
-#[inline]
-fn merge_rows(
-    ac: &[i64],
-    av: &[f64],
-    bc: &[i64],
-    bv: &[f64],
-    mut f: impl FnMut(i64, Option<(usize, f64)>, Option<f64>),
-) {
-    let (mut p, mut q) = (0, 0);
-    while p < ac.len() || q < bc.len() {
-        let take_a = q == bc.len() || (p < ac.len() && ac[p] <= bc[q]);
-        let take_b = p == ac.len() || (q < bc.len() && bc[q] <= ac[p]);
-        let col = if take_a { ac[p] } else { bc[q] };
-        f(col, take_a.then(|| (p, av[p])), take_b.then(|| bv[q]));
-        p += take_a as usize;
-        q += take_b as usize;
-    }
+    /// Stored weights that are not positive and finite (never made by
+    /// vicino; a broken matrix would show them).
+    pub bad_weights: usize,
 }
 
 /// Components, column counts, self-links and asymmetry in one go. Each
 /// link is looked up in the other unit's row (a binary search), so no
 /// transpose is built; rows are visited in parallel.
-pub fn health(w: CsrRef<'_>) -> Health {
+pub fn health(w: CsrRef<'_>, guard: &Guard) -> Result<Health> {
     let n = w.n();
     /// (self-links, one-way links, largest asymmetry as (value, i, j) with i < j)
     type Acc = (usize, usize, Option<(f64, usize, usize)>);
@@ -131,74 +116,69 @@ pub fn health(w: CsrRef<'_>) -> Health {
         },
         |a, b| (a.0 + b.0, a.1 + b.1, better(a.2, b.2)),
     );
+    guard.check()?;
     let mut in_counts = vec![0usize; n];
-    for &j in w.indices() {
-        in_counts[j as usize] += 1;
+    for i in 0..n {
+        for &j in w.row(i).0 {
+            in_counts[j as usize] += (j as usize != i) as usize;
+        }
     }
-    Health { components: components(w), in_counts, self_links, one_way, max_asymmetry }
+    let bad_weights = w.data().iter().filter(|v| !(**v > 0.0 && v.is_finite())).count();
+    Ok(Health { components: components(w), in_counts, self_links, one_way, max_asymmetry, bad_weights })
 }
 
-/// Build CSR buffers row by row: `row(i, cols, vals)` appends row i's
-/// entries, sorted by column. Blocks of rows run in parallel when the
-/// matrix is large, each into one buffer, stitched in row order.
-fn build_rows<T: Copy + Send>(
-    n: usize,
-    nnz: usize,
-    row: impl Fn(usize, &mut Vec<i64>, &mut Vec<T>) + Sync,
-) -> (Vec<i64>, Vec<i64>, Vec<T>) {
-    const BLOCK: usize = 2048;
-    let block = |b: usize| {
-        let (mut cols, mut vals, mut lens) = (Vec::new(), Vec::new(), Vec::new());
-        for i in b * BLOCK..((b + 1) * BLOCK).min(n) {
-            let before = cols.len();
-            row(i, &mut cols, &mut vals);
-            lens.push((cols.len() - before) as i64);
-        }
-        (cols, vals, lens)
-    };
-    let blocks = n.div_ceil(BLOCK);
-    let parts: Vec<(Vec<i64>, Vec<T>, Vec<i64>)> = if nnz >= PARALLEL_MIN_NNZ {
-        (0..blocks).into_par_iter().map(block).collect()
-    } else {
-        (0..blocks).map(block).collect()
-    };
-    let mut indptr = Vec::with_capacity(n + 1);
-    indptr.push(0i64);
-    for (_, _, lens) in &parts {
-        for &l in lens {
-            indptr.push(indptr[indptr.len() - 1] + l);
-        }
-    }
-    let total = indptr[n] as usize;
-    let (mut indices, mut data) = (Vec::with_capacity(total), Vec::with_capacity(total));
-    for (c, v, _) in parts {
-        indices.extend_from_slice(&c);
-        data.extend_from_slice(&v);
-    }
-    (indptr, indices, data)
+/// Each linked pair once, as (lower, higher) position, whether the link
+/// runs one way or both: the pairs to draw in a map of the links. Self-links
+/// are left out. Rows in order, so the output never depends on the thread count.
+pub fn undirected_pairs(w: CsrRef<'_>) -> Vec<(u32, u32)> {
+    w.fold_reverse(
+        Vec::new,
+        |acc, i, j, _, back| {
+            if i < j || (i > j && back.is_none()) {
+                acc.push((i.min(j) as u32, i.max(j) as u32));
+            }
+        },
+        |mut a, b| {
+            a.extend(b);
+            a
+        },
+    )
 }
+
+/// Bytes per stored entry of a result handed to Python (index and weight,
+/// and Python's own copy of per-link facts).
+const ENTRY_BYTES: f64 = 24.0;
 
 /// Binary weights linking each unit to the units exactly `k` links away
 /// along the links (shortest path length k), or, when `cumulative`, 1 to
 /// `k` links away. A unit is never its own k-step neighbour.
-pub fn order(w: CsrRef<'_>, k: usize, cumulative: bool) -> Result<Csr> {
+pub fn order(w: CsrRef<'_>, k: usize, cumulative: bool, guard: &Guard) -> Result<Csr> {
     if k == 0 {
         return Err(Error::InvalidOrder { k });
     }
     let n = w.n();
-    // blocks of rows, each with one output buffer; `seen` is a per-thread
-    // stamp per unit (seen[j] == i + 1: j already reached from row i), so
-    // it never needs clearing
-    const BLOCK: usize = 2048;
-    let block = |seen: &mut Vec<u32>, b: usize| {
-        if seen.len() != n {
-            *seen = vec![0u32; n];
-        }
-        let (lo, hi) = (b * BLOCK, ((b + 1) * BLOCK).min(n));
-        let (mut level, mut next) = (Vec::new(), Vec::new());
-        let mut cols: Vec<i64> = Vec::new();
-        let mut lens: Vec<i64> = Vec::with_capacity(hi - lo);
-        for i in lo..hi {
+    if n >= u32::MAX as usize {
+        return Err(Error::TooLarge {
+            what: "k-step neighbours",
+            needed: f64::INFINITY,
+            limit: guard.memory_limit(),
+            advice: "order supports fewer than 2^32 - 1 units",
+        });
+    }
+    let limit = guard.memory_limit() as f64 / ENTRY_BYTES;
+    let found = AtomicUsize::new(0);
+    // breadth-first by levels; `seen` is a per-thread stamp per unit
+    // (seen[j] == i + 1: j already reached from row i), so it never needs clearing
+    let parts = build_rows(
+        n,
+        None,
+        w.nnz() >= PARALLEL_MIN_NNZ,
+        || (Vec::<u32>::new(), Vec::new(), Vec::new()),
+        |(seen, level, next): &mut (Vec<u32>, Vec<i64>, Vec<i64>), i, cols, ones: &mut Vec<f64>| {
+            guard.check()?;
+            if seen.len() != n {
+                *seen = vec![0u32; n];
+            }
             let start = cols.len();
             let stamp = i as u32 + 1;
             seen[i] = stamp;
@@ -209,16 +189,16 @@ pub fn order(w: CsrRef<'_>, k: usize, cumulative: bool) -> Result<Csr> {
                     level.push(j);
                 }
             }
-            // breadth-first by levels: every unit is taken at its first (shortest) level
+            // every unit is taken at its first (shortest) level
             for step in 1..=k {
                 if cumulative || step == k {
-                    cols.extend_from_slice(&level);
+                    cols.extend_from_slice(level);
                 }
                 if step == k || level.is_empty() {
                     break;
                 }
                 next.clear();
-                for &u in &level {
+                for &u in level.iter() {
                     for &j in w.row(u as usize).0 {
                         if seen[j as usize] != stamp {
                             seen[j as usize] = stamp;
@@ -226,31 +206,23 @@ pub fn order(w: CsrRef<'_>, k: usize, cumulative: bool) -> Result<Csr> {
                         }
                     }
                 }
-                std::mem::swap(&mut level, &mut next);
+                std::mem::swap(level, next);
             }
             cols[start..].sort_unstable();
-            lens.push((cols.len() - start) as i64);
-        }
-        (cols, lens)
-    };
-    let blocks = n.div_ceil(BLOCK);
-    assert!(n < u32::MAX as usize, "order supports fewer than 2^32 - 1 units");
-    let parts: Vec<(Vec<i64>, Vec<i64>)> = if w.nnz() >= PARALLEL_MIN_NNZ {
-        (0..blocks).into_par_iter().with_min_len(8).map_init(Vec::new, block).collect()
-    } else {
-        let mut seen = Vec::new();
-        (0..blocks).map(|b| block(&mut seen, b)).collect()
-    };
-    let mut indptr = Vec::with_capacity(n + 1);
-    indptr.push(0i64);
-    for (_, lens) in &parts {
-        for &l in lens {
-            indptr.push(indptr[indptr.len() - 1] + l);
-        }
-    }
-    let indices: Vec<i64> = parts.into_iter().flat_map(|(c, _)| c).collect();
-    let data = vec![1.0; indices.len()];
-    Ok(Csr::from_canonical(n, indptr, indices, data))
+            ones.resize(cols.len(), 1.0);
+            let total = found.fetch_add(cols.len() - start, Ordering::Relaxed) + cols.len() - start;
+            if total as f64 > limit {
+                return Err(Error::TooLarge {
+                    what: "the k-step neighbours",
+                    needed: total as f64 * ENTRY_BYTES * n as f64 / (i + 1) as f64,
+                    limit: guard.memory_limit(),
+                    advice: "use a smaller k, or sparser weights",
+                });
+            }
+            Ok(())
+        },
+    )?;
+    Ok(Csr::from_parts(n, parts))
 }
 
 /// How to combine the links of two matrices over the same units.
@@ -284,21 +256,29 @@ pub fn combine(a: CsrRef<'_>, b: CsrRef<'_>, op: SetOp) -> Result<Csr> {
     if a.n() != b.n() {
         return Err(Error::LengthMismatch { what: "the second matrix", expected: a.n(), got: b.n() });
     }
-    let (indptr, indices, data) = build_rows(a.n(), a.nnz() + b.nnz(), |i, cols, ones: &mut Vec<f64>| {
-        let ((ac, av), (bc, bv)) = (a.row(i), b.row(i));
-        merge_rows(ac, av, bc, bv, |c, x, y| {
-            let keep = match op {
-                SetOp::Union => true,
-                SetOp::Intersection => x.is_some() && y.is_some(),
-                SetOp::Difference => x.is_some() && y.is_none(),
-            };
-            if keep {
-                cols.push(c);
-                ones.push(1.0);
-            }
-        });
-    });
-    Ok(Csr::from_canonical(a.n(), indptr, indices, data))
+    let parallel = a.nnz() + b.nnz() >= PARALLEL_MIN_NNZ;
+    let parts = build_rows(
+        a.n(),
+        None,
+        parallel,
+        || (),
+        |_, i, cols, ones: &mut Vec<f64>| {
+            let ((ac, av), (bc, bv)) = (a.row(i), b.row(i));
+            merge_rows(ac, av, bc, bv, |c, x, y| {
+                let keep = match op {
+                    SetOp::Union => true,
+                    SetOp::Intersection => x.is_some() && y.is_some(),
+                    SetOp::Difference => x.is_some() && y.is_none(),
+                };
+                if keep {
+                    cols.push(c);
+                    ones.push(1.0);
+                }
+            });
+            Ok(())
+        },
+    )?;
+    Ok(Csr::from_parts(a.n(), parts))
 }
 
 /// How to make a matrix symmetric from w_ij and w_ji (a missing link weighs 0).
@@ -328,28 +308,40 @@ impl Symmetrize {
 }
 
 /// A symmetric matrix from `w` and its transpose.
-pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Csr {
+pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Result<Csr> {
     let t = w.transpose();
     let tv = t.view();
-    let (indptr, indices, data) = build_rows(w.n(), 2 * w.nnz(), |i, cols, vals| {
-        let ((ac, av), (bc, bv)) = (w.row(i), tv.row(i));
-        merge_rows(ac, av, bc, bv, |c, x, y| {
-            let (x, y) = (x.map(|x| x.1), y);
-            let v = match how {
-                Symmetrize::Union => x.unwrap_or(0.0).max(y.unwrap_or(0.0)),
-                Symmetrize::Intersection => match (x, y) {
-                    (Some(x), Some(y)) => x.min(y),
-                    _ => 0.0,
-                },
-                Symmetrize::Mean => 0.5 * x.unwrap_or(0.0) + 0.5 * y.unwrap_or(0.0),
-            };
-            if v > 0.0 {
-                cols.push(c);
-                vals.push(v);
-            }
-        });
-    });
-    Csr::from_canonical(w.n(), indptr, indices, data)
+    let parts = build_rows(
+        w.n(),
+        None,
+        w.nnz() >= PARALLEL_MIN_NNZ,
+        || (),
+        |_, i, cols, vals| {
+            let ((ac, av), (bc, bv)) = (w.row(i), tv.row(i));
+            merge_rows(ac, av, bc, bv, |c, x, y| {
+                let v = match (x.map(|x| x.1), y) {
+                    (Some(x), Some(y)) => match how {
+                        Symmetrize::Union => x.max(y),
+                        Symmetrize::Intersection => x.min(y),
+                        // halves first: (x + y) / 2 could overflow
+                        Symmetrize::Mean => 0.5 * x + 0.5 * y,
+                    },
+                    (Some(v), None) | (None, Some(v)) => match how {
+                        Symmetrize::Union => v,
+                        Symmetrize::Intersection => 0.0,
+                        Symmetrize::Mean => 0.5 * v,
+                    },
+                    (None, None) => 0.0,
+                };
+                if v > 0.0 {
+                    cols.push(c);
+                    vals.push(v);
+                }
+            });
+            Ok(())
+        },
+    )?;
+    Ok(Csr::from_parts(w.n(), parts))
 }
 
 /// The weights among the units `keep` (positions, in the new order; no
@@ -363,33 +355,36 @@ pub fn select(w: CsrRef<'_>, keep: &[usize]) -> Result<(Csr, Vec<i64>)> {
             return Err(Error::PositionOutOfRange { position: u, n });
         }
         if new_pos[u] >= 0 {
-            return Err(Error::RepeatedPosition { position: u });
+            return Err(Error::RepeatedPosition { unit: Unit(u) });
         }
         new_pos[u] = r as i64;
     }
     let base = w.indptr();
     let all = w.data();
     let m = keep.len();
-    let (indptr, indices, source) = build_rows(m, w.nnz(), |r, cols, src: &mut Vec<i64>| {
-        let u = keep[r];
-        let start = cols.len();
-        for (e, &j) in w.row(u).0.iter().enumerate() {
-            let to = new_pos[j as usize];
-            if to >= 0 {
-                cols.push(to);
-                src.push(base[u] + e as i64);
+    let (indptr, indices, source) = build_rows(
+        m,
+        None,
+        w.nnz() >= PARALLEL_MIN_NNZ,
+        Vec::new,
+        |pairs: &mut Vec<(i64, i64)>, r, cols, src: &mut Vec<i64>| {
+            let u = keep[r];
+            pairs.clear();
+            for (e, &j) in w.row(u).0.iter().enumerate() {
+                let to = new_pos[j as usize];
+                if to >= 0 {
+                    pairs.push((to, base[u] + e as i64));
+                }
             }
-        }
-        // the new order of the columns need not be the old one
-        if cols[start..].windows(2).any(|p| p[0] > p[1]) {
-            let mut pairs: Vec<(i64, i64)> = cols[start..].iter().copied().zip(src[start..].iter().copied()).collect();
+            // the new order of the columns need not be the old one
             pairs.sort_unstable();
-            for (k, (c, e)) in pairs.into_iter().enumerate() {
-                cols[start + k] = c;
-                src[start + k] = e;
+            for &(c, e) in pairs.iter() {
+                cols.push(c);
+                src.push(e);
             }
-        }
-    });
+            Ok(())
+        },
+    )?;
     let data = source.iter().map(|&e| all[e as usize]).collect();
     Ok((Csr::from_canonical(m, indptr, indices, data), source))
 }
@@ -404,51 +399,49 @@ pub fn add_links(w: CsrRef<'_>, mut links: Vec<(usize, usize, f64)>) -> Result<(
             return Err(Error::PositionOutOfRange { position: i.max(j), n });
         }
         if !(v.is_finite() && v > 0.0) {
-            return Err(Error::NonFiniteWeight { row: i, col: j, value: v });
+            return Err(Error::NonFiniteWeight { link: Link(i, j), value: v });
         }
-    }
-    if links.is_empty() {
-        return Ok((w.to_owned(), (0..w.nnz() as i64).collect()));
     }
     links.sort_unstable_by_key(|&(i, j, _)| (i, j));
     if let Some(p) = links.windows(2).find(|p| (p[0].0, p[0].1) == (p[1].0, p[1].1)) {
-        return Err(Error::LinkExists { row: p[0].0, col: p[0].1 });
+        return Err(Error::LinkExists { link: Link(p[0].0, p[0].1) });
     }
-    let mut indptr = Vec::with_capacity(n + 1);
-    indptr.push(0i64);
-    let mut indices = Vec::with_capacity(w.nnz() + links.len());
-    let mut data = Vec::with_capacity(w.nnz() + links.len());
-    let mut source = Vec::with_capacity(w.nnz() + links.len());
-    let mut next = 0;
+    // the new links of each row, as a CSR of their own
+    let mut starts = vec![0usize; n + 1];
+    for &(i, _, _) in &links {
+        starts[i + 1] += 1;
+    }
     for i in 0..n {
-        let start = next;
-        while next < links.len() && links[next].0 == i {
-            next += 1;
-        }
-        let add = &links[start..next];
-        let bc: Vec<i64> = add.iter().map(|l| l.1 as i64).collect();
-        let bv: Vec<f64> = add.iter().map(|l| l.2).collect();
-        let (ac, av) = w.row(i);
-        let mut clash = None;
-        merge_rows(ac, av, &bc, &bv, |c, x, y| match (x, y) {
-            (Some(_), Some(_)) => clash = Some(c as usize),
-            (Some((p, v)), None) => {
-                indices.push(c);
-                data.push(v);
-                source.push(w.indptr()[i] + p as i64);
-            }
-            (None, Some(v)) => {
-                indices.push(c);
-                data.push(v);
-                source.push(-1);
-            }
-            (None, None) => unreachable!(),
-        });
-        if let Some(j) = clash {
-            return Err(Error::LinkExists { row: i, col: j });
-        }
-        indptr.push(indices.len() as i64);
+        starts[i + 1] += starts[i];
     }
+    let new_cols: Vec<i64> = links.iter().map(|l| l.1 as i64).collect();
+    let new_vals: Vec<f64> = links.iter().map(|l| l.2).collect();
+    // entries carry (value, source) until the end
+    let (indptr, indices, entries) = build_rows(
+        n,
+        None,
+        w.nnz() + links.len() >= PARALLEL_MIN_NNZ,
+        || (),
+        |_, i, cols, out: &mut Vec<(f64, i64)>| {
+            let (ac, av) = w.row(i);
+            let (bc, bv) = (&new_cols[starts[i]..starts[i + 1]], &new_vals[starts[i]..starts[i + 1]]);
+            let mut clash = None;
+            merge_rows(ac, av, bc, bv, |c, x, y| {
+                match (x, y) {
+                    (Some(_), Some(_)) => clash = Some(c as usize),
+                    (Some((p, v)), None) => out.push((v, w.indptr()[i] + p as i64)),
+                    (None, Some(v)) => out.push((v, -1)),
+                    (None, None) => {}
+                }
+                cols.push(c);
+            });
+            match clash {
+                Some(j) => Err(Error::LinkExists { link: Link(i, j) }),
+                None => Ok(()),
+            }
+        },
+    )?;
+    let (data, source) = entries.into_iter().unzip();
     Ok((Csr::from_canonical(n, indptr, indices, data), source))
 }
 
@@ -487,13 +480,13 @@ mod tests {
     fn order_on_a_path() {
         // on a path, unit i is exactly k steps from i - k and i + k (by hand)
         let w = path(6);
-        let o2 = order(w.view(), 2, false).unwrap();
+        let o2 = order(w.view(), 2, false, &Guard::unlimited()).unwrap();
         assert_eq!(o2.view().row(0).0, &[2]);
         assert_eq!(o2.view().row(3).0, &[1, 5]);
-        let c2 = order(w.view(), 2, true).unwrap();
+        let c2 = order(w.view(), 2, true, &Guard::unlimited()).unwrap();
         assert_eq!(c2.view().row(3).0, &[1, 2, 4, 5]);
-        assert_eq!(order(w.view(), 1, false).unwrap().view().indices(), w.view().indices());
-        assert!(order(w.view(), 0, false).is_err());
+        assert_eq!(order(w.view(), 1, false, &Guard::unlimited()).unwrap().view().indices(), w.view().indices());
+        assert!(order(w.view(), 0, false, &Guard::unlimited()).is_err());
     }
 
     #[test]
@@ -507,11 +500,11 @@ mod tests {
         let d = combine(a.view(), b.view(), SetOp::Difference).unwrap();
         assert_eq!(d.view().indices(), &[0]);
         // W = [[0,2,0],[0,0,0],[1,3,0]]: by hand, mean gives [[0,1,.5],[1,0,1.5],[.5,1.5,0]]
-        let m = symmetrize(a.view(), Symmetrize::Mean);
+        let m = symmetrize(a.view(), Symmetrize::Mean).unwrap();
         assert_eq!(m.view().data(), &[1.0, 0.5, 1.0, 1.5, 0.5, 1.5]);
         assert!(m.view().is_symmetric());
-        assert_eq!(symmetrize(a.view(), Symmetrize::Intersection).view().nnz(), 0);
-        let h = health(a.view());
+        assert_eq!(symmetrize(a.view(), Symmetrize::Intersection).unwrap().view().nnz(), 0);
+        let h = health(a.view(), &Guard::unlimited()).unwrap();
         assert_eq!(h.one_way, 3);
         assert_eq!(h.max_asymmetry, Some((3.0, 1, 2)));
         assert_eq!(h.in_counts, vec![1, 2, 0]);

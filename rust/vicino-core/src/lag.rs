@@ -1,95 +1,89 @@
 //! Spatial lag: the product W x of a weights matrix with one or many columns.
-//! Each output row is a weighted sum of neighbour values in stored order, so
-//! the result is the same bit for bit whatever the number of threads.
-//! Complexity O(nnz * columns), parallel over rows above a size threshold.
+//! Each output value is a weighted sum of neighbour values in stored order,
+//! started from +0.0, so the result is the same bit for bit whatever the
+//! number of threads, and a column lagged alone or among others gives the
+//! same numbers. Complexity O(nnz * columns), parallel over blocks of rows
+//! above a size threshold; the neighbours' values of rows a few rows ahead
+//! are prefetched, since they sit at random places.
 
 use crate::csr::{prefetch, CsrRef, PARALLEL_MIN_NNZ};
-use crate::error::{first_positions, Error, Result};
-use ndarray::{Array2, ArrayView2, Axis};
+use crate::error::{Error, Result, Units};
 use rayon::prelude::*;
 
-/// Rows holding a NaN or infinite value are an error naming the first few.
-fn check_finite(x: ArrayView2<'_, f64>) -> Result<()> {
-    let (count, first) = first_positions(x.nrows(), |i| x.row(i).iter().any(|v| !v.is_finite()));
-    if count > 0 {
-        return Err(Error::NonFiniteValues { count, first });
-    }
-    Ok(())
-}
+/// How many rows ahead to prefetch neighbour values.
+const AHEAD: usize = 4;
+/// Rows per parallel block.
+const CHUNK: usize = 2048;
 
-/// W x for one vector.
+/// W X for `x` holding n rows of `m` values each (row-major, `m >= 1`).
 ///
 /// ```
 /// use vicino_core::{Csr, lag::lag};
 /// let w = Csr::from_rows(vec![vec![(1, 0.5), (2, 0.5)], vec![(0, 1.0)], vec![]]);
-/// assert_eq!(lag(w.view(), &[1.0, 2.0, 4.0]).unwrap(), vec![3.0, 1.0, 0.0]);
+/// assert_eq!(lag(w.view(), &[1.0, 2.0, 4.0], 1).unwrap(), vec![3.0, 1.0, 0.0]);
+/// // two columns: (1, 10), (2, 20), (4, 40)
+/// let y = lag(w.view(), &[1.0, 10.0, 2.0, 20.0, 4.0, 40.0], 2).unwrap();
+/// assert_eq!(y, vec![3.0, 30.0, 1.0, 10.0, 0.0, 0.0]);
 /// ```
-pub fn lag(w: CsrRef<'_>, x: &[f64]) -> Result<Vec<f64>> {
-    if x.len() != w.n() {
-        return Err(Error::LengthMismatch { what: "values", expected: w.n(), got: x.len() });
+pub fn lag(w: CsrRef<'_>, x: &[f64], m: usize) -> Result<Vec<f64>> {
+    let n = w.n();
+    if m == 0 || x.len() != n * m {
+        return Err(Error::LengthMismatch { what: "values", expected: n, got: x.len() / m.max(1) });
     }
-    if !x.par_iter().with_min_len(1 << 14).all(|v| v.is_finite()) {
-        let (count, first) = first_positions(x.len(), |i| !x[i].is_finite());
-        return Err(Error::NonFiniteValues { count, first });
+    let finite = |x: &[f64]| x.par_iter().with_min_len(1 << 14).all(|v| v.is_finite());
+    if !finite(x) {
+        let units = Units::find(n, |i| x[i * m..(i + 1) * m].iter().any(|v| !v.is_finite()));
+        return Err(Error::NonFiniteValues { units });
     }
-    Ok(lag_unchecked(w, x))
+    let out = lag_unchecked(w, x, m);
+    if !finite(&out) {
+        let units = Units::find(n, |i| out[i * m..(i + 1) * m].iter().any(|v| !v.is_finite()));
+        return Err(Error::Overflow {
+            what: "the spatial lag",
+            units,
+            advice: "rescale the values (or the weights) before taking the lag",
+        });
+    }
+    Ok(out)
 }
 
-/// How many rows ahead to prefetch neighbour values.
-const AHEAD: usize = 4;
-
-/// Rows `first..first + out.len()` of W x into `out`, in stored order within each row.
-fn lag_rows(w: CsrRef<'_>, x: &[f64], first: usize, out: &mut [f64]) {
+/// Rows `first..` of W X into `out` (whole rows of m values).
+fn lag_rows(w: CsrRef<'_>, x: &[f64], m: usize, first: usize, out: &mut [f64]) {
     let (indptr, indices, data) = (w.indptr(), w.indices(), w.data());
     let n = w.n();
-    for (o, slot) in out.iter_mut().enumerate() {
+    for (o, slot) in out.chunks_exact_mut(m).enumerate() {
         let i = first + o;
         if i + AHEAD < n {
             let (c, d) = (indptr[i + AHEAD] as usize, indptr[i + AHEAD + 1] as usize);
             for &j in &indices[c..d] {
-                prefetch(x, j as usize);
+                prefetch(x, j as usize * m);
             }
         }
         let (a, b) = (indptr[i] as usize, indptr[i + 1] as usize);
-        // fold from +0.0: `sum` of an empty row would give -0.0
-        *slot = indices[a..b].iter().zip(&data[a..b]).fold(0.0, |acc, (&j, &v)| acc + v * x[j as usize]);
+        if m == 1 {
+            // fold from +0.0: `sum` of an empty row would give -0.0
+            slot[0] = indices[a..b].iter().zip(&data[a..b]).fold(0.0, |acc, (&j, &v)| acc + v * x[j as usize]);
+        } else {
+            slot.fill(0.0);
+            for (&j, &v) in indices[a..b].iter().zip(&data[a..b]) {
+                let xj = &x[j as usize * m..(j as usize + 1) * m];
+                for (s, &xv) in slot.iter_mut().zip(xj) {
+                    *s += v * xv;
+                }
+            }
+        }
     }
 }
 
-/// W x without checks (x has length n and is finite).
-pub fn lag_unchecked(w: CsrRef<'_>, x: &[f64]) -> Vec<f64> {
-    const CHUNK: usize = 2048;
-    let mut out = vec![0.0; w.n()];
-    if w.nnz() >= PARALLEL_MIN_NNZ {
-        out.par_chunks_mut(CHUNK).enumerate().for_each(|(b, chunk)| lag_rows(w, x, b * CHUNK, chunk));
+/// W X without checks (x holds n rows of m finite values).
+pub fn lag_unchecked(w: CsrRef<'_>, x: &[f64], m: usize) -> Vec<f64> {
+    let mut out = vec![0.0; w.n() * m];
+    if w.nnz() * m >= PARALLEL_MIN_NNZ {
+        out.par_chunks_mut(CHUNK * m).enumerate().for_each(|(b, chunk)| lag_rows(w, x, m, b * CHUNK, chunk));
     } else {
-        lag_rows(w, x, 0, &mut out);
+        lag_rows(w, x, m, 0, &mut out);
     }
     out
-}
-
-/// W X for an (n, m) array of m columns.
-pub fn lag_columns(w: CsrRef<'_>, x: ArrayView2<'_, f64>) -> Result<Array2<f64>> {
-    let (rows, cols) = x.dim();
-    if rows != w.n() {
-        return Err(Error::LengthMismatch { what: "values", expected: w.n(), got: rows });
-    }
-    check_finite(x)?;
-    let mut out = Array2::<f64>::zeros((rows, cols));
-    let fill = |i: usize, mut o: ndarray::ArrayViewMut1<'_, f64>| {
-        let (c, v) = w.row(i);
-        for (&j, &wij) in c.iter().zip(v) {
-            o.scaled_add(wij, &x.row(j as usize));
-        }
-    };
-    if w.nnz() * cols.max(1) >= PARALLEL_MIN_NNZ {
-        out.axis_iter_mut(Axis(0)).into_par_iter().enumerate().for_each(|(i, o)| fill(i, o));
-    } else {
-        for (i, o) in out.axis_iter_mut(Axis(0)).enumerate() {
-            fill(i, o);
-        }
-    }
-    Ok(out)
 }
 
 #[cfg(test)]
@@ -100,11 +94,13 @@ mod tests {
     #[test]
     fn columns_match_single() {
         let w = Csr::from_rows(vec![vec![(1, 0.5), (2, 0.5)], vec![(0, 1.0)], vec![(0, 2.0)]]);
-        let x = ndarray::array![[1.0, 10.0], [2.0, 20.0], [4.0, 40.0]];
-        let y = lag_columns(w.view(), x.view()).unwrap();
+        let x = [1.0, 10.0, 2.0, 20.0, 4.0, 40.0];
+        let y = lag(w.view(), &x, 2).unwrap();
         // by hand: rows 0.5*2+0.5*4 = 3, 1*1 = 1, 2*1 = 2
-        assert_eq!(y, ndarray::array![[3.0, 30.0], [1.0, 10.0], [2.0, 20.0]]);
-        assert!(lag(w.view(), &[1.0, f64::NAN, 0.0]).is_err());
-        assert!(lag(w.view(), &[1.0]).is_err());
+        assert_eq!(y, vec![3.0, 30.0, 1.0, 10.0, 2.0, 20.0]);
+        assert!(lag(w.view(), &[1.0, f64::NAN, 0.0], 1).is_err());
+        assert!(lag(w.view(), &[1.0], 1).is_err());
+        // 2 * 1e308 overflows
+        assert!(matches!(lag(w.view(), &[1e308, 0.0, 0.0], 1), Err(Error::Overflow { .. })));
     }
 }

@@ -10,7 +10,9 @@
 pub mod contiguity;
 pub mod csr;
 pub mod error;
+pub mod frame;
 pub mod graph;
+pub mod guard;
 pub mod io;
 pub mod lag;
 pub mod neighbors;
@@ -21,3 +23,4 @@ pub mod stats;
 
 pub use csr::{Csr, CsrRef};
 pub use error::{Error, Result};
+pub use guard::Guard;

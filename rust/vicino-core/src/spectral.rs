@@ -20,9 +20,15 @@
 //!   periodic (bipartite, cyclic) blocks from oscillating. Blocks with an
 //!   eigenvalue gap that is very small (long directed cycles) may not
 //!   converge; that is reported as an error with the bounds reached.
+//!
+//! Weights far from 1 in magnitude (beyond 2^+-128) are first divided by a
+//! power of two near the largest (exact), so that no product or sum
+//! overflows or underflows; the radius is scaled back.
 
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
+use crate::frame::{pow2_exponent, times_pow2};
+use crate::guard::Guard;
 use crate::lag::lag_unchecked;
 
 /// How the spectral radius was found.
@@ -124,7 +130,7 @@ fn last_component(a: &[f64], b: &[f64], theta: f64) -> f64 {
     cur.abs() / norm2.sqrt()
 }
 
-fn lanczos(w: CsrRef<'_>) -> Result<SpectralRadius> {
+fn lanczos(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
     let n = w.n();
     // a positive start is never orthogonal to the Perron vector
     let mut q: Vec<f64> = (0..n).map(|i| 1.0 + ((i * 7919) % 104_729) as f64 / 104_729.0).collect();
@@ -135,7 +141,8 @@ fn lanczos(w: CsrRef<'_>) -> Result<SpectralRadius> {
     let mut theta = f64::NAN;
     let (mut last, mut stalled) = (f64::NAN, 0);
     for it in 1..=MAX_LANCZOS {
-        let mut v = lag_unchecked(w, &q);
+        guard.check()?;
+        let mut v = lag_unchecked(w, &q, 1);
         let a = dot(&q, &v);
         let b_prev = beta.last().copied().unwrap_or(0.0);
         for i in 0..n {
@@ -276,12 +283,15 @@ fn strong_components(w: CsrRef<'_>) -> (Vec<usize>, usize) {
 
 /// Collatz-Wielandt power iteration on B = W + I for one irreducible block.
 /// Returns (lower, upper) bounds of rho, or an error when they do not meet.
-fn block_radius(w: CsrRef<'_>, floor: f64) -> Result<(f64, f64, usize)> {
+fn block_radius(w: CsrRef<'_>, floor: f64, guard: &Guard) -> Result<(f64, f64, usize)> {
     let n = w.n();
     let mut x = vec![1.0; n];
     let (mut lo, mut hi) = (0.0, f64::INFINITY);
     for it in 1..=MAX_POWER {
-        let mut y = lag_unchecked(w, &x);
+        if it % 16 == 0 {
+            guard.check()?;
+        }
+        let mut y = lag_unchecked(w, &x, 1);
         let (mut l, mut u) = (f64::INFINITY, 0.0f64);
         for i in 0..n {
             y[i] += x[i];
@@ -302,7 +312,7 @@ fn block_radius(w: CsrRef<'_>, floor: f64) -> Result<(f64, f64, usize)> {
     Err(Error::NotConverged { iterations: MAX_POWER, estimate: 0.5 * (lo + hi) })
 }
 
-fn general(w: CsrRef<'_>) -> Result<SpectralRadius> {
+fn general(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
     let (label, count) = strong_components(w);
     let mut members: Vec<Vec<usize>> = vec![Vec::new(); count];
     for (i, &c) in label.iter().enumerate() {
@@ -330,7 +340,7 @@ fn general(w: CsrRef<'_>) -> Result<SpectralRadius> {
             continue; // a single unit without a self-link: eigenvalue 0
         }
         let block = Csr::from_rows(rows);
-        let (lo, hi, it) = block_radius(block.view(), best)?;
+        let (lo, hi, it) = block_radius(block.view(), best, guard)?;
         iterations += it;
         if hi > best {
             best = 0.5 * (lo + hi);
@@ -342,15 +352,22 @@ fn general(w: CsrRef<'_>) -> Result<SpectralRadius> {
 /// The spectral radius of a non-negative weights matrix.
 ///
 /// ```
-/// use vicino_core::{Csr, spectral::spectral_radius};
+/// use vicino_core::{Csr, Guard, spectral::spectral_radius};
 /// // path 0 - 1 - 2: eigenvalues of the adjacency matrix are 0 and +-sqrt(2)
 /// let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(0, 1.0), (2, 1.0)], vec![(1, 1.0)]]);
-/// let r = spectral_radius(w.view()).unwrap();
+/// let r = spectral_radius(w.view(), &Guard::unlimited()).unwrap();
 /// assert!((r.value - 2f64.sqrt()).abs() < 1e-12);
 /// ```
-pub fn spectral_radius(w: CsrRef<'_>) -> Result<SpectralRadius> {
-    if w.nnz() == 0 || w.data().iter().all(|&v| v == 0.0) {
+pub fn spectral_radius(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
+    let top = w.data().iter().copied().fold(0.0f64, f64::max);
+    if !(top > 0.0) {
         return Err(Error::NoWeight { what: "the largest eigenvalue" });
+    }
+    let e = pow2_exponent(top);
+    if e.abs() > 128 {
+        let scaled = w.with_data(w.data().iter().map(|&v| times_pow2(v, -e)).collect());
+        let r = spectral_radius(scaled.view(), guard)?;
+        return Ok(SpectralRadius { value: times_pow2(r.value, e), ..r });
     }
     for sums in [w.row_sums(), w.col_sums()] {
         if let Some(c) = constant(&sums) {
@@ -358,8 +375,8 @@ pub fn spectral_radius(w: CsrRef<'_>) -> Result<SpectralRadius> {
         }
     }
     match symmetric_form(w) {
-        Some(None) => lanczos(w),
-        Some(Some(m)) => lanczos(m.view()),
-        None => general(w),
+        Some(None) => lanczos(w, guard),
+        Some(Some(m)) => lanczos(m.view(), guard),
+        None => general(w, guard),
     }
 }

@@ -5,6 +5,7 @@
 //! (rook) and a point when max(|dr|, |dc|) = 1 (queen) (common practice).
 
 use std::collections::{BTreeMap, BTreeSet};
+use vicino_core::Guard;
 
 use proptest::prelude::*;
 use vicino_core::contiguity::{contiguity, Contiguity, Polygons, Rule};
@@ -98,7 +99,7 @@ fn lattice_pairs(cells: &[(i64, i64)], rule: Rule) -> BTreeSet<(usize, usize)> {
 }
 
 fn run(b: &Buffers, rule: Rule) -> Contiguity {
-    contiguity(&b.polygons(), rule, 0.0, Metric::Euclidean).unwrap()
+    contiguity(&b.polygons(), rule, 0.0, Metric::Euclidean, &Guard::unlimited()).unwrap()
 }
 
 // ---------------------------------------------------------------------------
@@ -160,7 +161,7 @@ fn half_offset_t_junction() {
 #[test]
 fn rook_with_tiny_tolerance_keeps_lattice_counts() {
     let (b, cells) = lattice(3, 3, &[true; 9], 0.0, 0.0, 1.0);
-    let c = contiguity(&b.polygons(), Rule::Rook, 1e-9, Metric::Euclidean).unwrap();
+    let c = contiguity(&b.polygons(), Rule::Rook, 1e-9, Metric::Euclidean, &Guard::unlimited()).unwrap();
     assert_eq!(pairs(&c), lattice_pairs(&cells, Rule::Rook)); // common practice: rook lattice 4 / 3 / 2
 }
 

@@ -9,6 +9,7 @@ use proptest::prelude::*;
 use vicino_core::graph::{add_links, combine, components, health, order, select, symmetrize, SetOp, Symmetrize};
 use vicino_core::neighbors::Metric;
 use vicino_core::repair::{component_links, island_links};
+use vicino_core::Guard;
 use vicino_core::{Csr, CsrRef};
 
 /// A non-negative n x n matrix with about `share` of entries stored.
@@ -61,7 +62,7 @@ proptest! {
     fn order_matches_shortest_paths(w in matrix(14, 0.15, true), k in 1usize..5) {
         let d = path_lengths(w.view());
         for cumulative in [false, true] {
-            let o = order(w.view(), k, cumulative).unwrap();
+            let o = order(w.view(), k, cumulative, &Guard::unlimited()).unwrap();
             let got = dense(o.view());
             for i in 0..w.n() {
                 for j in 0..w.n() {
@@ -76,7 +77,7 @@ proptest! {
     fn components_match_reachability(w in matrix(14, 0.08, false)) {
         // oracle: i and j share a component iff connected in W + W^T (Floyd-Warshall)
         let n = w.n();
-        let both = symmetrize(w.view(), Symmetrize::Union);
+        let both = symmetrize(w.view(), Symmetrize::Union).unwrap();
         let d = path_lengths(both.view());
         let c = components(w.view());
         prop_assert_eq!(c.sizes.iter().sum::<usize>(), n);
@@ -103,7 +104,7 @@ proptest! {
             (Symmetrize::Intersection, |x: f64, y: f64| x.min(y)),
             (Symmetrize::Mean, |x: f64, y: f64| (x + y) / 2.0),
         ] {
-            let s = dense(symmetrize(a.view(), how).view());
+            let s = dense(symmetrize(a.view(), how).unwrap().view());
             for i in 0..n { for j in 0..n { prop_assert_eq!(s[i][j], f(da[i][j], da[j][i])); } }
         }
         for (op, f) in [
@@ -116,7 +117,7 @@ proptest! {
                 prop_assert_eq!(c[i][j], if f(da[i][j] > 0.0, db[i][j] > 0.0) { 1.0 } else { 0.0 });
             } }
         }
-        let h = health(a.view());
+        let h = health(a.view(), &Guard::unlimited()).unwrap();
         let worst = (0..n).flat_map(|i| (0..n).map(move |j| (i, j))).map(|(i, j)| (da[i][j] - da[j][i]).abs()).fold(0.0, f64::max);
         prop_assert_eq!(h.max_asymmetry.map_or(0.0, |m| m.0), worst);
         prop_assert_eq!(h.self_links, (0..n).filter(|&i| da[i][i] > 0.0).count());
@@ -145,8 +146,8 @@ proptest! {
         let xy: Vec<f64> = pts[..n].iter().flat_map(|&(x, y)| [x as f64, y as f64]).collect();
         let keep: Vec<usize> = (0..n).collect();
         let (w, _) = select(w.view(), &keep).unwrap();
-        let s = symmetrize(w.view(), Symmetrize::Union);
-        let links = island_links(s.view(), &xy, Metric::Euclidean, 1).unwrap();
+        let s = symmetrize(w.view(), Symmetrize::Union).unwrap();
+        let links = island_links(s.view(), &xy, Metric::Euclidean, 1, &Guard::unlimited()).unwrap();
         // oracle: each island's link goes to a brute-force nearest other unit (lowest position on ties)
         let dist = |i: usize, j: usize| ((xy[2 * i] - xy[2 * j]).powi(2) + (xy[2 * i + 1] - xy[2 * j + 1]).powi(2)).sqrt();
         for i in s.view().islands() {
@@ -156,7 +157,7 @@ proptest! {
         let (fixed, _) = add_links(s.view(), links.iter().map(|&(i, j, _)| (i, j, 1.0)).collect()).unwrap();
         prop_assert!(fixed.view().islands().is_empty());
         prop_assert!(fixed.view().is_symmetric());
-        let more = component_links(fixed.view(), &xy, Metric::Euclidean).unwrap();
+        let more = component_links(fixed.view(), &xy, Metric::Euclidean, &Guard::unlimited()).unwrap();
         let (joined, _) = add_links(fixed.view(), more.iter().map(|&(i, j, _)| (i, j, 1.0)).collect()).unwrap();
         prop_assert_eq!(components(joined.view()).count(), 1);
         prop_assert!(joined.view().is_symmetric());
@@ -170,11 +171,14 @@ fn results_do_not_depend_on_thread_count() {
     let n = 50_000;
     let w =
         Csr::from_rows((0..n).map(|i| vec![((i + 1) % n, 1.0), ((i + 7) % n, 2.0), ((i + n - 1) % n, 1.0)]).collect());
-    let run =
-        |t: usize| {
-            rayon::ThreadPoolBuilder::new().num_threads(t).build().unwrap().install(|| {
-                (order(w.view(), 2, true).unwrap(), symmetrize(w.view(), Symmetrize::Mean), health(w.view()))
-            })
-        };
+    let run = |t: usize| {
+        rayon::ThreadPoolBuilder::new().num_threads(t).build().unwrap().install(|| {
+            (
+                order(w.view(), 2, true, &Guard::unlimited()).unwrap(),
+                symmetrize(w.view(), Symmetrize::Mean),
+                health(w.view(), &Guard::unlimited()),
+            )
+        })
+    };
     assert_eq!(run(1), run(2)); // common practice: parallel loops must not change results
 }

@@ -2,8 +2,9 @@
 //! Euclidean and great circle, with ties (integer grids, duplicated points)
 //! and the error cases.
 
-use vicino_core::error::Error;
+use vicino_core::error::{Error, Unit};
 use vicino_core::neighbors::{k_nearest, within_distance, Metric, Neighbors, EARTH_RADIUS_KM};
+use vicino_core::Guard;
 
 // ---------------------------------------------------------------------------
 // helpers
@@ -140,13 +141,13 @@ fn assert_same(got: &[Vec<(usize, f64)>], want: &[Vec<(usize, f64)>], tol: f64, 
 }
 
 fn check_knn(xy: &[f64], k: usize, metric: Metric, tol: f64, what: &str) {
-    let nb = k_nearest(xy, k, metric).unwrap();
+    let nb = k_nearest(xy, k, metric, &Guard::unlimited()).unwrap();
     assert_same(&rows(&nb), &brute_knn(xy, k, metric), tol, what);
     assert_eq!(nb.duplicate_units, brute_duplicate_units(xy, metric), "{what}: duplicate units");
 }
 
 fn check_within(xy: &[f64], radius: f64, metric: Metric, tol: f64, what: &str) -> Neighbors {
-    let nb = within_distance(xy, radius, metric).unwrap();
+    let nb = within_distance(xy, radius, metric, &Guard::unlimited()).unwrap();
     let got = rows(&nb);
     assert_same(&got, &brute_within(xy, radius, metric), tol, what);
     assert_symmetric(&got, what);
@@ -281,7 +282,7 @@ fn knn_euclidean_many_copies_of_one_point() {
 fn knn_negative_zero_is_the_same_place() {
     // -0.0 and 0.0 are one location: distance 0, ties by position
     let xy = [0.0, 0.0, -0.0, -0.0, 1.0, 0.0, 0.0, -0.0];
-    let nb = k_nearest(&xy, 2, Metric::Euclidean).unwrap();
+    let nb = k_nearest(&xy, 2, Metric::Euclidean, &Guard::unlimited()).unwrap();
     assert_same(&rows(&nb), &brute_knn(&xy, 2, Metric::Euclidean), 0.0, "signed zero");
     assert_eq!(nb.duplicate_units, 3); // oracle: by hand, units 0, 1 and 3
 }
@@ -291,11 +292,11 @@ fn knn_example_by_hand() {
     // points on a line at 0, 1, 3, 4: nearest of 0 is 1, of 1 is 0 (d 1,
     // lower position than 2 at d 2), of 2 is 3, of 3 is 2
     let xy = [0.0, 0.0, 1.0, 0.0, 3.0, 0.0, 4.0, 0.0];
-    let nb = k_nearest(&xy, 1, Metric::Euclidean).unwrap();
+    let nb = k_nearest(&xy, 1, Metric::Euclidean, &Guard::unlimited()).unwrap();
     assert_eq!(nb.graph.view().indices(), &[1, 0, 3, 2]); // oracle: by hand
     assert_eq!(nb.graph.view().data(), &[1.0, 1.0, 1.0, 1.0]);
     // k = 2 for unit 1: 0 at 1 and 2 at 2
-    let nb = k_nearest(&xy, 2, Metric::Euclidean).unwrap();
+    let nb = k_nearest(&xy, 2, Metric::Euclidean, &Guard::unlimited()).unwrap();
     assert_eq!(nb.graph.view().row(1), (&[0i64, 2][..], &[1.0, 2.0][..])); // oracle: by hand
 }
 
@@ -360,7 +361,7 @@ fn knn_great_circle_ties_and_duplicates() {
 fn knn_great_circle_distances_are_km() {
     // one degree of arc along the equator is R pi / 180 km
     let xy = [0.0, 0.0, 1.0, 0.0, 3.0, 0.0];
-    let nb = k_nearest(&xy, 1, Metric::GreatCircle).unwrap();
+    let nb = k_nearest(&xy, 1, Metric::GreatCircle, &Guard::unlimited()).unwrap();
     let want = EARTH_RADIUS_KM * std::f64::consts::PI / 180.0; // common practice: arc = R theta
     assert!((nb.graph.view().data()[0] - want).abs() < 1e-9);
     assert_eq!(EARTH_RADIUS_KM, 6371.0088); // IUGG mean radius R1 (Moritz 2000)
@@ -371,14 +372,14 @@ fn great_circle_one_place_spelled_two_ways() {
     // lon 190 is lon -170, lon 180 is lon -180, and both poles are single
     // places whatever the longitude: each pair is one location at distance 0
     let xy = [190.0, 20.0, -170.0, 20.0, 180.0, -5.0, -180.0, -5.0, 12.0, 90.0, -99.0, 90.0, 0.0, -90.0, 359.0, -90.0];
-    let nb = k_nearest(&xy, 1, Metric::GreatCircle).unwrap();
+    let nb = k_nearest(&xy, 1, Metric::GreatCircle, &Guard::unlimited()).unwrap();
     assert_eq!(nb.duplicate_units, 8); // oracle: by hand, four pairs
     assert_eq!(nb.graph.view().indices(), &[1, 0, 3, 2, 5, 4, 7, 6]); // oracle: by hand
     assert!(nb.graph.view().data().iter().all(|&d| d == 0.0));
-    let nb = within_distance(&xy, 0.0, Metric::GreatCircle).unwrap();
+    let nb = within_distance(&xy, 0.0, Metric::GreatCircle, &Guard::unlimited()).unwrap();
     assert_eq!(nb.graph.view().counts(), vec![1; 8]); // oracle: by hand
                                                       // in the plane these are eight different points
-    assert_eq!(k_nearest(&xy, 1, Metric::Euclidean).unwrap().duplicate_units, 0);
+    assert_eq!(k_nearest(&xy, 1, Metric::Euclidean, &Guard::unlimited()).unwrap().duplicate_units, 0);
 }
 
 // ---------------------------------------------------------------------------
@@ -411,9 +412,9 @@ fn within_euclidean_grid_boundary_is_inclusive() {
         assert_eq!(nb.graph.view().counts()[60], want, "r^2 = {d2}");
     }
     // (0,0) and (3,4) are exactly 5 apart and must be linked at radius 5
-    let nb = within_distance(&[0.0, 0.0, 3.0, 4.0], 5.0, Metric::Euclidean).unwrap();
+    let nb = within_distance(&[0.0, 0.0, 3.0, 4.0], 5.0, Metric::Euclidean, &Guard::unlimited()).unwrap();
     assert_eq!(nb.graph.view().counts(), vec![1, 1]); // oracle: by hand, 3-4-5 triangle
-    let nb = within_distance(&[0.0, 0.0, 3.0, 4.0], 5.0 - 1e-12, Metric::Euclidean).unwrap();
+    let nb = within_distance(&[0.0, 0.0, 3.0, 4.0], 5.0 - 1e-12, Metric::Euclidean, &Guard::unlimited()).unwrap();
     assert_eq!(nb.graph.view().counts(), vec![0, 0]); // oracle: by hand
 }
 
@@ -486,42 +487,51 @@ fn within_great_circle_antipodes() {
 #[test]
 fn knn_errors() {
     let xy = [0.0, 0.0, 1.0, 0.0, 2.0, 0.0];
-    assert_eq!(k_nearest(&xy, 0, Metric::Euclidean).unwrap_err(), Error::InvalidK { k: 0, n: 3 });
-    assert_eq!(k_nearest(&xy, 3, Metric::Euclidean).unwrap_err(), Error::InvalidK { k: 3, n: 3 });
-    assert_eq!(k_nearest(&xy, 4, Metric::GreatCircle).unwrap_err(), Error::InvalidK { k: 4, n: 3 });
-    assert_eq!(k_nearest(&[0.0, 0.0], 1, Metric::Euclidean).unwrap_err(), Error::InvalidK { k: 1, n: 1 });
-    assert_eq!(k_nearest(&[], 1, Metric::Euclidean).unwrap_err(), Error::Empty);
-    assert_eq!(k_nearest(&[0.0, 0.0, 1.0], 1, Metric::Euclidean).unwrap_err(), Error::OddCoordinates { len: 3 });
-    assert!(matches!(
-        k_nearest(&[0.0, 0.0, f64::NAN, 1.0, 2.0, 2.0], 1, Metric::Euclidean),
-        Err(Error::NonFiniteCoordinate { index: 1, axis: 0, .. })
-    ));
-    assert!(matches!(
-        k_nearest(&[0.0, 0.0, 1.0, f64::INFINITY], 1, Metric::Euclidean),
-        Err(Error::NonFiniteCoordinate { index: 1, axis: 1, .. })
-    ));
-    assert!(matches!(
-        k_nearest(&[0.0, 0.0, 1.0, 1e151], 1, Metric::Euclidean),
-        Err(Error::CoordinateTooLarge { index: 1, axis: 1, .. })
-    ));
+    assert_eq!(k_nearest(&xy, 0, Metric::Euclidean, &Guard::unlimited()).unwrap_err(), Error::InvalidK { k: 0, n: 3 });
+    assert_eq!(k_nearest(&xy, 3, Metric::Euclidean, &Guard::unlimited()).unwrap_err(), Error::InvalidK { k: 3, n: 3 });
     assert_eq!(
-        k_nearest(&[0.0, 0.0, 10.0, 90.5], 1, Metric::GreatCircle).unwrap_err(),
-        Error::LatitudeOutOfRange { index: 1, value: 90.5 }
+        k_nearest(&xy, 4, Metric::GreatCircle, &Guard::unlimited()).unwrap_err(),
+        Error::InvalidK { k: 4, n: 3 }
     );
     assert_eq!(
-        k_nearest(&[0.0, -91.0, 10.0, 0.0], 1, Metric::GreatCircle).unwrap_err(),
-        Error::LatitudeOutOfRange { index: 0, value: -91.0 }
+        k_nearest(&[0.0, 0.0], 1, Metric::Euclidean, &Guard::unlimited()).unwrap_err(),
+        Error::InvalidK { k: 1, n: 1 }
     );
+    assert_eq!(k_nearest(&[], 1, Metric::Euclidean, &Guard::unlimited()).unwrap_err(), Error::Empty);
     assert_eq!(
-        k_nearest(&[0.0, 0.0, -180.5, 0.0], 1, Metric::GreatCircle).unwrap_err(),
-        Error::LongitudeOutOfRange { index: 1, value: -180.5 }
+        k_nearest(&[0.0, 0.0, 1.0], 1, Metric::Euclidean, &Guard::unlimited()).unwrap_err(),
+        Error::OddCoordinates { len: 3 }
     );
     assert!(matches!(
-        k_nearest(&[0.0, f64::NAN, 1.0, 1.0], 1, Metric::GreatCircle),
-        Err(Error::NonFiniteCoordinate { index: 0, axis: 1, .. })
+        k_nearest(&[0.0, 0.0, f64::NAN, 1.0, 2.0, 2.0], 1, Metric::Euclidean, &Guard::unlimited()),
+        Err(Error::NonFiniteCoordinate { unit: Unit(1), axis: 0, .. })
+    ));
+    assert!(matches!(
+        k_nearest(&[0.0, 0.0, 1.0, f64::INFINITY], 1, Metric::Euclidean, &Guard::unlimited()),
+        Err(Error::NonFiniteCoordinate { unit: Unit(1), axis: 1, .. })
+    ));
+    assert!(matches!(
+        k_nearest(&[0.0, 0.0, 1.0, 1e151], 1, Metric::Euclidean, &Guard::unlimited()),
+        Err(Error::CoordinateTooLarge { unit: Unit(1), axis: 1, .. })
+    ));
+    assert_eq!(
+        k_nearest(&[0.0, 0.0, 10.0, 90.5], 1, Metric::GreatCircle, &Guard::unlimited()).unwrap_err(),
+        Error::LatitudeOutOfRange { unit: Unit(1), value: 90.5 }
+    );
+    assert_eq!(
+        k_nearest(&[0.0, -91.0, 10.0, 0.0], 1, Metric::GreatCircle, &Guard::unlimited()).unwrap_err(),
+        Error::LatitudeOutOfRange { unit: Unit(0), value: -91.0 }
+    );
+    assert_eq!(
+        k_nearest(&[0.0, 0.0, -180.5, 0.0], 1, Metric::GreatCircle, &Guard::unlimited()).unwrap_err(),
+        Error::LongitudeOutOfRange { unit: Unit(1), value: -180.5 }
+    );
+    assert!(matches!(
+        k_nearest(&[0.0, f64::NAN, 1.0, 1.0], 1, Metric::GreatCircle, &Guard::unlimited()),
+        Err(Error::NonFiniteCoordinate { unit: Unit(0), axis: 1, .. })
     ));
     // a latitude of 91 is fine in the plane
-    assert!(k_nearest(&[0.0, 91.0, 1.0, 1.0], 1, Metric::Euclidean).is_ok());
+    assert!(k_nearest(&[0.0, 91.0, 1.0, 1.0], 1, Metric::Euclidean, &Guard::unlimited()).is_ok());
 }
 
 #[test]
@@ -530,22 +540,25 @@ fn within_errors() {
     for r in [-1.0, -1e-300, f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
         for metric in [Metric::Euclidean, Metric::GreatCircle] {
             assert!(
-                matches!(within_distance(&xy, r, metric), Err(Error::InvalidRadius { .. })),
+                matches!(within_distance(&xy, r, metric, &Guard::unlimited()), Err(Error::InvalidRadius { .. })),
                 "radius {r} must be refused"
             );
         }
     }
-    assert_eq!(within_distance(&[], 1.0, Metric::Euclidean).unwrap_err(), Error::Empty);
-    assert_eq!(within_distance(&[], 1.0, Metric::GreatCircle).unwrap_err(), Error::Empty);
-    assert_eq!(within_distance(&[1.0], 1.0, Metric::Euclidean).unwrap_err(), Error::OddCoordinates { len: 1 });
+    assert_eq!(within_distance(&[], 1.0, Metric::Euclidean, &Guard::unlimited()).unwrap_err(), Error::Empty);
+    assert_eq!(within_distance(&[], 1.0, Metric::GreatCircle, &Guard::unlimited()).unwrap_err(), Error::Empty);
+    assert_eq!(
+        within_distance(&[1.0], 1.0, Metric::Euclidean, &Guard::unlimited()).unwrap_err(),
+        Error::OddCoordinates { len: 1 }
+    );
     assert!(matches!(
-        within_distance(&[0.0, 0.0, f64::NAN, 0.0], 1.0, Metric::Euclidean),
-        Err(Error::NonFiniteCoordinate { index: 1, axis: 0, .. })
+        within_distance(&[0.0, 0.0, f64::NAN, 0.0], 1.0, Metric::Euclidean, &Guard::unlimited()),
+        Err(Error::NonFiniteCoordinate { unit: Unit(1), axis: 0, .. })
     ));
     assert_eq!(
-        within_distance(&[0.0, 0.0, 0.0, 100.0], 1.0, Metric::GreatCircle).unwrap_err(),
-        Error::LatitudeOutOfRange { index: 1, value: 100.0 }
+        within_distance(&[0.0, 0.0, 0.0, 100.0], 1.0, Metric::GreatCircle, &Guard::unlimited()).unwrap_err(),
+        Error::LatitudeOutOfRange { unit: Unit(1), value: 100.0 }
     );
     // a negative zero radius is zero
-    assert!(within_distance(&xy, -0.0, Metric::Euclidean).is_ok());
+    assert!(within_distance(&xy, -0.0, Metric::Euclidean, &Guard::unlimited()).is_ok());
 }

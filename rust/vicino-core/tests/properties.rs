@@ -6,8 +6,8 @@ mod common;
 
 use common::dense;
 use proptest::prelude::*;
-use vicino_core::error::Error;
-use vicino_core::lag::{lag, lag_columns};
+use vicino_core::error::{Error, Units};
+use vicino_core::lag::lag;
 use vicino_core::neighbors::{k_nearest, within_distance, Metric};
 use vicino_core::spectral::spectral_radius;
 use vicino_core::standardize::{standardize, Islands, Method};
@@ -15,6 +15,7 @@ use vicino_core::stats::global::moran;
 use vicino_core::stats::moments::weight_sums;
 use vicino_core::stats::permutation::{shuffle, stream};
 use vicino_core::stats::Alternative;
+use vicino_core::Guard;
 use vicino_core::{Csr, CsrRef};
 
 // ---------------------------------------------------------------------------
@@ -217,7 +218,7 @@ proptest! {
     ) {
         let n = xy.len() / 2;
         for metric in [Metric::Euclidean, Metric::GreatCircle] {
-            let g = k_nearest(&xy, k, metric).unwrap().graph;
+            let g = k_nearest(&xy, k, metric, &Guard::unlimited()).unwrap().graph;
             let g = g.view();
             prop_assert_eq!(g.n(), n);
             for i in 0..n {
@@ -236,7 +237,7 @@ proptest! {
     ) {
         // oracle: brute force on squared integer distances (exact)
         let n = xy.len() / 2;
-        let g = k_nearest(&xy, k, Metric::Euclidean).unwrap().graph;
+        let g = k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
         let g = g.view();
         for i in 0..n {
             let mut all: Vec<(f64, usize)> = (0..n).filter(|&j| j != i).map(|j| {
@@ -262,7 +263,7 @@ proptest! {
         let metric = if gc { Metric::GreatCircle } else { Metric::Euclidean };
         // for the sphere the radius is in km: about r2 * 20 km
         let radius = if gc { r2 as f64 * 20.0 } else { (r2 as f64).sqrt() };
-        let nb = within_distance(&xy, radius, metric).unwrap();
+        let nb = within_distance(&xy, radius, metric, &Guard::unlimited()).unwrap();
         let g = nb.graph.view();
         prop_assert!(g.is_symmetric()); // common practice: a distance band is symmetric
         let n = xy.len() / 2;
@@ -290,13 +291,13 @@ proptest! {
         let moved: Vec<f64> = xy.chunks(2).flat_map(|p| [p[0] + tx as f64, p[1] + ty as f64]).collect();
         // exact identity: (x + t) - (y + t) = x - y for these integers
         prop_assert_eq!(
-            k_nearest(&xy, k, Metric::Euclidean).unwrap().graph,
-            k_nearest(&moved, k, Metric::Euclidean).unwrap().graph
+            k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph,
+            k_nearest(&moved, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph
         );
         let r = (r2 as f64).sqrt();
         prop_assert_eq!(
-            within_distance(&xy, r, Metric::Euclidean).unwrap().graph,
-            within_distance(&moved, r, Metric::Euclidean).unwrap().graph
+            within_distance(&xy, r, Metric::Euclidean, &Guard::unlimited()).unwrap().graph,
+            within_distance(&moved, r, Metric::Euclidean, &Guard::unlimited()).unwrap().graph
         );
     }
 
@@ -310,15 +311,15 @@ proptest! {
         let n = xy.len() / 2;
         let k = k.min(n - 1);
         let scaled: Vec<f64> = xy.iter().map(|v| v * s).collect();
-        let a = k_nearest(&xy, k, Metric::Euclidean).unwrap().graph;
-        let b = k_nearest(&scaled, k, Metric::Euclidean).unwrap().graph;
+        let a = k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
+        let b = k_nearest(&scaled, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
         prop_assert_eq!(a.view().indptr(), b.view().indptr());
         prop_assert_eq!(a.view().indices(), b.view().indices());
         for (da, db) in a.view().data().iter().zip(b.view().data()) {
             prop_assert!(close(da * s, *db, 4.0 * f64::EPSILON), "{} * {} vs {}", da, s, db);
         }
-        let a = within_distance(&xy, (r2 as f64).sqrt(), Metric::Euclidean).unwrap().graph;
-        let b = within_distance(&scaled, (s * s * r2 as f64).sqrt(), Metric::Euclidean).unwrap().graph;
+        let a = within_distance(&xy, (r2 as f64).sqrt(), Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
+        let b = within_distance(&scaled, (s * s * r2 as f64).sqrt(), Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
         prop_assert_eq!(a.view().indices(), b.view().indices());
         prop_assert_eq!(a.view().indptr(), b.view().indptr());
     }
@@ -337,11 +338,11 @@ proptest! {
         let n = v.n();
         let islands: Vec<usize> = (0..n).filter(|&i| v.row(i).0.is_empty()).collect();
         if !islands.is_empty() {
-            let raised = matches!(standardize(v, Method::Row, Islands::Raise), Err(Error::Islands { .. }));
+            let raised = matches!(standardize(v, Method::Row, Islands::Raise, &Guard::unlimited()), Err(Error::Islands { .. }));
             prop_assert!(raised);
         }
         // row: rows sum to 1 and w*_ij = w_ij / w_i. (common practice)
-        let row = with_data(&w, standardize(v, Method::Row, Islands::Keep).unwrap());
+        let row = with_data(&w, standardize(v, Method::Row, Islands::Keep, &Guard::unlimited()).unwrap());
         for (i, s) in row_sums(row.view()).into_iter().enumerate() {
             if islands.contains(&i) {
                 prop_assert_eq!(s, 0.0);
@@ -354,15 +355,15 @@ proptest! {
             }
         }
         // binary: a one for every stored link
-        let b = standardize(v, Method::Binary, Islands::Keep).unwrap();
+        let b = standardize(v, Method::Binary, Islands::Keep, &Guard::unlimited()).unwrap();
         prop_assert_eq!(b, vec![1.0; v.nnz()]);
-        prop_assert_eq!(standardize(v, Method::None, Islands::Keep).unwrap(), v.data().to_vec());
+        prop_assert_eq!(standardize(v, Method::None, Islands::Keep, &Guard::unlimited()).unwrap(), v.data().to_vec());
         if v.data().iter().any(|&x| x > 0.0) {
             let max = v.data().iter().copied().fold(0.0, f64::max);
             let total: f64 = v.data().iter().sum();
-            let me = standardize(v, Method::MaxEntry, Islands::Keep).unwrap();
-            let gl = standardize(v, Method::Global, Islands::Keep).unwrap();
-            let vs = standardize(v, Method::VarianceStabilizing, Islands::Keep).unwrap();
+            let me = standardize(v, Method::MaxEntry, Islands::Keep, &Guard::unlimited()).unwrap();
+            let gl = standardize(v, Method::Global, Islands::Keep, &Guard::unlimited()).unwrap();
+            let vs = standardize(v, Method::VarianceStabilizing, Islands::Keep, &Guard::unlimited()).unwrap();
             // Tiefelsdorf, Griffith and Boots (1999): n (w_ij / q_i) / sum(w / q)
             let q: Vec<f64> = (0..n).map(|i| a[i].iter().map(|x| x * x).sum::<f64>().sqrt()).collect();
             let sum_wq: f64 = (0..n).map(|i| if q[i] > 0.0 { a[i].iter().sum::<f64>() / q[i] } else { 0.0 }).sum();
@@ -382,13 +383,13 @@ proptest! {
             let rho = rho_m_matrix(&a);
             // rho = 0 (nilpotent W) has its own test below
             prop_assume!(rho > 1e-6);
-            let mx = standardize(v, Method::MaxEigenvalue, Islands::Keep).unwrap();
+            let mx = standardize(v, Method::MaxEigenvalue, Islands::Keep, &Guard::unlimited()).unwrap();
             for (x, y) in mx.iter().zip(v.data()) {
                 prop_assert!(close(*x, y / rho, 1e-8), "{} vs {} / {}", x, y, rho);
             }
         } else {
-            let refused = matches!(standardize(v, Method::Global, Islands::Keep), Err(Error::NoWeight { .. }))
-                && matches!(standardize(v, Method::MaxEntry, Islands::Keep), Err(Error::NoWeight { .. }));
+            let refused = matches!(standardize(v, Method::Global, Islands::Keep, &Guard::unlimited()), Err(Error::NoWeight { .. }))
+                && matches!(standardize(v, Method::MaxEntry, Islands::Keep, &Guard::unlimited()), Err(Error::NoWeight { .. }));
             prop_assert!(refused);
         }
     }
@@ -397,14 +398,14 @@ proptest! {
     fn standardized_knn_rows_sum_to_one(
         (xy, k) in int_points(60, 10).prop_flat_map(|xy| { let n = xy.len() / 2; (Just(xy), 1..n) })
     ) {
-        let g = k_nearest(&xy, k, Metric::Euclidean).unwrap().graph;
+        let g = k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
         // duplicates give zero distances; weight by inverse distance plus one
         let w = with_data(&g, g.view().data().iter().map(|d| 1.0 / (1.0 + d)).collect());
-        let r = with_data(&w, standardize(w.view(), Method::Row, Islands::Raise).unwrap());
+        let r = with_data(&w, standardize(w.view(), Method::Row, Islands::Raise, &Guard::unlimited()).unwrap());
         for s in row_sums(r.view()) {
             prop_assert!((s - 1.0).abs() <= 1e-12); // common practice: row-standardized rows sum to 1
         }
-        prop_assert_eq!(standardize(w.view(), Method::Binary, Islands::Raise).unwrap(), vec![1.0; g.view().nnz()]);
+        prop_assert_eq!(standardize(w.view(), Method::Binary, Islands::Raise, &Guard::unlimited()).unwrap(), vec![1.0; g.view().nnz()]);
     }
 }
 
@@ -421,10 +422,10 @@ proptest! {
     ) {
         let v = w.view();
         let d = dense(v);
-        let lx = lag(v, &x).unwrap();
-        let ly = lag(v, &y).unwrap();
+        let lx = lag(v, &x, 1).unwrap();
+        let ly = lag(v, &y, 1).unwrap();
         let combo: Vec<f64> = x.iter().zip(&y).map(|(p, q)| a * p + b * q).collect();
-        let lc = lag(v, &combo).unwrap();
+        let lc = lag(v, &combo, 1).unwrap();
         let scale: f64 = 1.0 + d.iter().flatten().sum::<f64>() * 100.0 * (1.0 + a.abs() + b.abs());
         for i in 0..v.n() {
             // linearity of a matrix product (exact identity, up to rounding)
@@ -434,12 +435,12 @@ proptest! {
         for (g, e) in lx.iter().zip(&want) {
             prop_assert!((g - e).abs() <= 1e-12 * scale);
         }
-        // many columns at once equal one at a time
-        let cols = ndarray::Array2::from_shape_fn((v.n(), 2), |(i, c)| if c == 0 { x[i] } else { y[i] });
-        let lcols = lag_columns(v, cols.view()).unwrap();
+        // many columns at once equal one at a time, bit for bit (same order of summation)
+        let cols: Vec<f64> = x.iter().zip(&y).flat_map(|(&p, &q)| [p, q]).collect();
+        let lcols = lag(v, &cols, 2).unwrap();
         for i in 0..v.n() {
-            prop_assert!((lcols[[i, 0]] - lx[i]).abs() <= 1e-12 * scale);
-            prop_assert!((lcols[[i, 1]] - ly[i]).abs() <= 1e-12 * scale);
+            prop_assert_eq!(lcols[2 * i].to_bits(), lx[i].to_bits());
+            prop_assert_eq!(lcols[2 * i + 1].to_bits(), ly[i].to_bits());
         }
     }
 }
@@ -447,10 +448,10 @@ proptest! {
 #[test]
 fn lag_refuses_bad_values() {
     let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(0, 1.0)]]);
-    assert_eq!(lag(w.view(), &[1.0]).unwrap_err(), Error::LengthMismatch { what: "values", expected: 2, got: 1 });
+    assert_eq!(lag(w.view(), &[1.0], 1).unwrap_err(), Error::LengthMismatch { what: "values", expected: 2, got: 1 });
     assert_eq!(
-        lag(w.view(), &[f64::INFINITY, f64::NAN]).unwrap_err(),
-        Error::NonFiniteValues { count: 2, first: vec![0, 1] }
+        lag(w.view(), &[f64::INFINITY, f64::NAN], 1).unwrap_err(),
+        Error::NonFiniteValues { units: Units { first: vec![0, 1], count: 2 } }
     );
 }
 
@@ -465,12 +466,12 @@ proptest! {
         (xy, k) in int_points(60, 10).prop_flat_map(|xy| { let n = xy.len() / 2; (Just(xy), 1..n) })
     ) {
         // W 1 = c 1 with 1 > 0, so rho = c (Perron-Frobenius)
-        let g = k_nearest(&xy, k, Metric::Euclidean).unwrap().graph;
+        let g = k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
         let bin = with_data(&g, vec![1.0; g.view().nnz()]);
-        prop_assert_eq!(spectral_radius(bin.view()).unwrap().value, k as f64);
+        prop_assert_eq!(spectral_radius(bin.view(), &Guard::unlimited()).unwrap().value, k as f64);
         let w = with_data(&g, g.view().data().iter().map(|d| 1.0 / (1.0 + d)).collect());
-        let row = with_data(&w, standardize(w.view(), Method::Row, Islands::Raise).unwrap());
-        prop_assert!((spectral_radius(row.view()).unwrap().value - 1.0).abs() <= 1e-12);
+        let row = with_data(&w, standardize(w.view(), Method::Row, Islands::Raise, &Guard::unlimited()).unwrap());
+        prop_assert!((spectral_radius(row.view(), &Guard::unlimited()).unwrap().value - 1.0).abs() <= 1e-12);
     }
 
     #[test]
@@ -480,7 +481,7 @@ proptest! {
         let ev = jacobi_eigenvalues(dense(s.view()));
         // for a symmetric non-negative matrix rho = lambda_max (Perron-Frobenius)
         let want = ev.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        let got = spectral_radius(s.view()).unwrap().value;
+        let got = spectral_radius(s.view(), &Guard::unlimited()).unwrap().value;
         prop_assert!(close(got, want, 1e-10), "got {} want {} (eigenvalues {:?})", got, want, ev);
     }
 
@@ -489,7 +490,7 @@ proptest! {
         prop_assume!(w.view().nnz() > 0);
         let want = rho_m_matrix(&dense(w.view()));
         prop_assume!(want > 1e-6); // nilpotent patterns are checked on their own
-        let got = spectral_radius(w.view()).unwrap().value;
+        let got = spectral_radius(w.view(), &Guard::unlimited()).unwrap().value;
         prop_assert!(close(got, want, 1e-8), "got {} want {}", got, want);
     }
 }
@@ -516,9 +517,9 @@ fn spectral_radius_of_large_grid_graph() {
     // rho = 2 cos(pi / (a + 1)) + 2 cos(pi / (b + 1)) (common practice, spectral graph theory)
     let (a, b) = (70usize, 45usize);
     let xy: Vec<f64> = (0..b).flat_map(|y| (0..a).flat_map(move |x| [x as f64, y as f64])).collect();
-    let g = within_distance(&xy, 1.0, Metric::Euclidean).unwrap().graph;
+    let g = within_distance(&xy, 1.0, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
     assert!(g.view().data().iter().all(|&d| d == 1.0));
-    let got = spectral_radius(g.view()).unwrap().value;
+    let got = spectral_radius(g.view(), &Guard::unlimited()).unwrap().value;
     let pi = std::f64::consts::PI;
     let want = 2.0 * (pi / (a + 1) as f64).cos() + 2.0 * (pi / (b + 1) as f64).cos();
     assert!(close(got, want, 1e-10), "got {got} want {want}");
@@ -527,7 +528,7 @@ fn spectral_radius_of_large_grid_graph() {
     let path = Csr::from_rows(
         (0..n).map(|i| [i.wrapping_sub(1), i + 1].into_iter().filter(|&j| j < n).map(|j| (j, 1.0)).collect()).collect(),
     );
-    let got = spectral_radius(path.view()).unwrap().value;
+    let got = spectral_radius(path.view(), &Guard::unlimited()).unwrap().value;
     assert!(close(got, 2.0 * (pi / (n + 1) as f64).cos(), 1e-10), "path: {got}");
 }
 
@@ -543,10 +544,10 @@ fn spectral_radius_of_distance_weighted_knn() {
     };
     let xy: Vec<f64> = (0..120).map(|_| next() * 10.0).collect();
     for k in [1usize, 2, 4, 7] {
-        let g = k_nearest(&xy, k, Metric::Euclidean).unwrap().graph;
+        let g = k_nearest(&xy, k, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
         let w = with_data(&g, g.view().data().iter().map(|d| 1.0 / d).collect());
         let want = rho_m_matrix(&dense(w.view()));
-        let got = spectral_radius(w.view()).unwrap().value;
+        let got = spectral_radius(w.view(), &Guard::unlimited()).unwrap().value;
         assert!(close(got, want, 1e-8), "k={k}: got {got} want {want}");
     }
 }
@@ -567,7 +568,7 @@ fn spectral_radius_block_triangular_with_close_eigenvalues() {
     rows[5].push((1, 0.25));
     let w = Csr::from_rows(rows);
     assert!(close(rho_m_matrix(&dense(w.view())), 2.0, 1e-9));
-    let got = spectral_radius(w.view()).unwrap().value;
+    let got = spectral_radius(w.view(), &Guard::unlimited()).unwrap().value;
     assert!(close(got, 2.0, 1e-8), "got {got} want 2");
 }
 
@@ -585,7 +586,7 @@ fn spectral_radius_block_triangular_is_accurate_for_small_gaps() {
         rows[3].push((0, 0.5));
         rows[5].push((1, 0.25));
         let w = Csr::from_rows(rows);
-        match spectral_radius(w.view()) {
+        match spectral_radius(w.view(), &Guard::unlimited()) {
             Ok(r) => assert!(close(r.value, 2.0, 1e-10), "gap {gap}: got {r:?} want 2"),
             Err(e) => panic!("gap {gap}: got error {e:?}, want 2"),
         }
@@ -598,7 +599,7 @@ fn spectral_radius_with_defective_perron_root() {
     // of P twice, +-1 (block triangular identity), so rho = 1
     let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(0, 1.0)], vec![(0, 1.0), (3, 1.0)], vec![(2, 1.0)]]);
     assert!(close(rho_m_matrix(&dense(w.view())), 1.0, 1e-9));
-    match spectral_radius(w.view()) {
+    match spectral_radius(w.view(), &Guard::unlimited()) {
         Ok(r) => assert!(close(r.value, 1.0, 1e-9), "got {r:?} want 1"),
         Err(e) => panic!("got error {e:?}, want 1"),
     }
@@ -609,7 +610,7 @@ fn spectral_radius_of_nilpotent_matrix_is_zero() {
     // a directed path 0 -> 1 -> 2 -> 3 is strictly upper triangular: every
     // eigenvalue is 0 (exact identity)
     let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(2, 1.0)], vec![(3, 1.0)], vec![]]);
-    match spectral_radius(w.view()) {
+    match spectral_radius(w.view(), &Guard::unlimited()) {
         Ok(r) => assert!(r.value.abs() <= 1e-6, "got {r:?} want 0"),
         Err(e) => panic!("got error {e:?}, want 0"),
     }
@@ -618,9 +619,9 @@ fn spectral_radius_of_nilpotent_matrix_is_zero() {
 #[test]
 fn spectral_radius_refuses_no_weight() {
     let w = Csr::from_rows(vec![vec![], vec![]]);
-    assert!(matches!(spectral_radius(w.view()), Err(Error::NoWeight { .. })));
+    assert!(matches!(spectral_radius(w.view(), &Guard::unlimited()), Err(Error::NoWeight { .. })));
     let w = Csr::from_rows(vec![vec![(1, 0.0)], vec![]]);
-    assert!(matches!(spectral_radius(w.view()), Err(Error::NoWeight { .. })));
+    assert!(matches!(spectral_radius(w.view(), &Guard::unlimited()), Err(Error::NoWeight { .. })));
 }
 
 // ---------------------------------------------------------------------------
@@ -634,7 +635,7 @@ proptest! {
         let v = w.view();
         let a = dense(v);
         let n = v.n();
-        let m = match moran(v, &x, 0, 1, Alternative::TwoSided) {
+        let m = match moran(v, &x, 0, 1, Alternative::TwoSided, &Guard::unlimited()) {
             Ok(m) => m,
             Err(e) => { prop_assert!(false, "unexpected error {:?}", e); unreachable!() }
         };
@@ -685,7 +686,7 @@ proptest! {
         let v = w.view();
         let a = dense(v);
         let n = v.n();
-        let m = moran(v, &x, 0, 1, Alternative::TwoSided).unwrap();
+        let m = moran(v, &x, 0, 1, Alternative::TwoSided, &Guard::unlimited()).unwrap();
         let draws: Vec<f64> = all_permutations(n).iter().map(|p| {
             let xp: Vec<f64> = p.iter().map(|&i| x[i]).collect();
             moran_dense(&a, &xp)
@@ -704,8 +705,8 @@ proptest! {
         let alt = [Alternative::TwoSided, Alternative::Greater, Alternative::Less][alt as usize];
         let v = w.view();
         let a = dense(v);
-        let m1 = moran(v, &x, r, seed, alt).unwrap();
-        let m2 = moran(v, &x, r, seed, alt).unwrap();
+        let m1 = moran(v, &x, r, seed, alt, &Guard::unlimited()).unwrap();
+        let m2 = moran(v, &x, r, seed, alt, &Guard::unlimited()).unwrap();
         // same seed, same result bit for bit (Debug of f64 round-trips; NaN std when R = 1)
         prop_assert_eq!(format!("{:?}", m1), format!("{:?}", m2));
         let p = m1.permutation.clone().unwrap();
@@ -765,7 +766,10 @@ fn moran_refuses_self_weights_whose_moments_differ() {
     // -1/(n-1) is not that mean, so the Cliff-Ord moments (which assume
     // w_ii = 0) do not apply: the core must refuse rather than report them
     assert!(!close(-1.0 / 4.0, exact_mean, 1e-6));
-    assert!(matches!(moran(w.view(), &x, 0, 1, Alternative::TwoSided), Err(Error::SelfLinks { count: 2, .. })));
+    assert!(matches!(
+        moran(w.view(), &x, 0, 1, Alternative::TwoSided, &Guard::unlimited()),
+        Err(Error::SelfLinks { units: Units { count: 2, .. }, .. })
+    ));
 }
 
 #[test]
@@ -774,14 +778,14 @@ fn moran_permutations_do_not_depend_on_threads() {
     let n = 3000;
     let xy: Vec<f64> = (0..n).flat_map(|i| [(i % 60) as f64, (i / 60) as f64 + 0.001 * (i % 7) as f64]).collect();
     let x: Vec<f64> = (0..n).map(|i| ((i * 37) % 101) as f64 + (i % 60) as f64).collect();
-    let g = k_nearest(&xy, 12, Metric::Euclidean).unwrap().graph;
+    let g = k_nearest(&xy, 12, Metric::Euclidean, &Guard::unlimited()).unwrap().graph;
     assert!(g.view().nnz() >= vicino_core::csr::PARALLEL_MIN_NNZ); // the parallel paths are taken
-    let w = with_data(&g, standardize(g.view(), Method::Row, Islands::Raise).unwrap());
+    let w = with_data(&g, standardize(g.view(), Method::Row, Islands::Raise, &Guard::unlimited()).unwrap());
     let run = |t: usize| {
         pool(t).install(|| {
-            let nb = k_nearest(&xy, 12, Metric::Euclidean).unwrap();
-            let l = lag(w.view(), &x).unwrap();
-            let m = moran(w.view(), &x, 199, 42, Alternative::TwoSided).unwrap();
+            let nb = k_nearest(&xy, 12, Metric::Euclidean, &Guard::unlimited()).unwrap();
+            let l = lag(w.view(), &x, 1).unwrap();
+            let m = moran(w.view(), &x, 199, 42, Alternative::TwoSided, &Guard::unlimited()).unwrap();
             (nb.graph, l, m)
         })
     };
@@ -817,8 +821,8 @@ fn moran_permutations_do_not_depend_on_threads() {
 fn moran_seeds_give_different_draws() {
     let w = Csr::from_rows((0..8).map(|i: usize| vec![((i + 1) % 8, 1.0), ((i + 7) % 8, 1.0)]).collect());
     let x = [1.0, 5.0, 2.0, 8.0, 3.0, 3.5, 9.0, 0.5];
-    let a = moran(w.view(), &x, 50, 1, Alternative::Greater).unwrap().permutation.unwrap();
-    let b = moran(w.view(), &x, 50, 2, Alternative::Greater).unwrap().permutation.unwrap();
+    let a = moran(w.view(), &x, 50, 1, Alternative::Greater, &Guard::unlimited()).unwrap().permutation.unwrap();
+    let b = moran(w.view(), &x, 50, 2, Alternative::Greater, &Guard::unlimited()).unwrap().permutation.unwrap();
     assert_ne!(a.draws, b.draws); // 50 draws from 8! orders agree by chance with probability ~ 0
 }
 
@@ -826,22 +830,29 @@ fn moran_seeds_give_different_draws() {
 fn moran_errors() {
     let ring = |n: usize| Csr::from_rows((0..n).map(|i| vec![((i + 1) % n, 1.0), ((i + n - 1) % n, 1.0)]).collect());
     assert!(matches!(
-        moran(ring(3).view(), &[1.0, 2.0, 3.0], 0, 1, Alternative::TwoSided),
+        moran(ring(3).view(), &[1.0, 2.0, 3.0], 0, 1, Alternative::TwoSided, &Guard::unlimited()),
         Err(Error::TooFewUnits { need: 4, n: 3, .. })
     ));
     let w = ring(5);
-    assert_eq!(moran(w.view(), &[1.0; 5], 0, 1, Alternative::TwoSided).unwrap_err(), Error::ConstantValues);
-    assert!(matches!(moran(w.view(), &[1.0; 4], 0, 1, Alternative::TwoSided), Err(Error::LengthMismatch { .. })));
+    assert_eq!(
+        moran(w.view(), &[1.0; 5], 0, 1, Alternative::TwoSided, &Guard::unlimited()).unwrap_err(),
+        Error::ConstantValues
+    );
     assert!(matches!(
-        moran(w.view(), &[1.0, 2.0, f64::NAN, 0.0, 1.0], 0, 1, Alternative::TwoSided),
-        Err(Error::NonFiniteValues { count: 1, .. })
+        moran(w.view(), &[1.0; 4], 0, 1, Alternative::TwoSided, &Guard::unlimited()),
+        Err(Error::LengthMismatch { .. })
+    ));
+    assert!(matches!(
+        moran(w.view(), &[1.0, 2.0, f64::NAN, 0.0, 1.0], 0, 1, Alternative::TwoSided, &Guard::unlimited()),
+        Err(Error::NonFiniteValues { units: Units { count: 1, .. } })
     ));
     let empty = Csr::from_rows(vec![vec![]; 5]);
     assert!(matches!(
-        moran(empty.view(), &[1.0, 2.0, 3.0, 4.0, 5.0], 0, 1, Alternative::TwoSided),
+        moran(empty.view(), &[1.0, 2.0, 3.0, 4.0, 5.0], 0, 1, Alternative::TwoSided, &Guard::unlimited()),
         Err(Error::NoWeight { .. })
     ));
     // alternating values on an even ring: every link joins unlike values, I = -1
-    let m = moran(ring(6).view(), &[1.0, 0.0, 1.0, 0.0, 1.0, 0.0], 0, 1, Alternative::TwoSided).unwrap();
+    let m = moran(ring(6).view(), &[1.0, 0.0, 1.0, 0.0, 1.0, 0.0], 0, 1, Alternative::TwoSided, &Guard::unlimited())
+        .unwrap();
     assert!((m.statistic + 1.0).abs() < 1e-12); // oracle: by hand, z'Wz = -z'z S0 / n
 }

@@ -9,6 +9,7 @@ use vicino_core::contiguity::{self as core, Polygons, Rule};
 use vicino_core::error::Result;
 use vicino_core::io::wkb::decode_polygons;
 use vicino_core::neighbors::Metric;
+use vicino_core::Guard;
 
 /// How Python hands over the units.
 #[derive(FromPyObject)]
@@ -51,10 +52,10 @@ fn with_polygons<T>(raw: Raw<'_>, f: impl FnOnce(&Polygons<'_>) -> Result<T>) ->
 pub fn with_polygon_input<T: Send>(
     py: Python<'_>,
     polygons: PolygonInput<'_>,
-    f: impl FnOnce(&Polygons<'_>) -> Result<T> + Send,
+    f: impl FnOnce(&Polygons<'_>, &Guard) -> Result<T> + Send,
 ) -> PyResult<T> {
     let raw = polygons.raw()?;
-    run(py, || with_polygons(raw, f))
+    run(py, |g| with_polygons(raw, |p| f(p, g)))
 }
 
 type ContiguityOut<'py> = (CsrOut<'py>, Bound<'py, PyArray1<f64>>, Vec<usize>);
@@ -68,8 +69,8 @@ pub fn contiguity<'py>(
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let out = with_polygon_input(py, polygons, |p| {
-        core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?)
+    let out = with_polygon_input(py, polygons, |p, g| {
+        core::contiguity(p, Rule::parse(rule)?, tolerance, Metric::parse(metric)?, g)
     })?;
     Ok((csr_out(py, out.graph), out.perimeter.into_pyarray(py), out.empty))
 }
@@ -84,8 +85,15 @@ pub fn cliff_ord<'py>(
     tolerance: f64,
     metric: &str,
 ) -> PyResult<ContiguityOut<'py>> {
-    let (w, info) = with_polygon_input(py, polygons, |p| {
-        core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?)
+    let (w, info) = with_polygon_input(py, polygons, |p, g| {
+        core::cliff_ord(p, border_power, distance_power, tolerance, Metric::parse(metric)?, g)
     })?;
     Ok((csr_out(py, w), info.perimeter.into_pyarray(py), info.empty))
+}
+
+/// Centroids of polygons as interleaved x, y (NaN for empty units).
+#[pyfunction]
+pub fn centroids<'py>(py: Python<'py>, polygons: PolygonInput<'py>) -> PyResult<Bound<'py, PyArray1<f64>>> {
+    let out = with_polygon_input(py, polygons, |p, _| Ok(core::centroids(p)))?;
+    Ok(out.into_pyarray(py))
 }

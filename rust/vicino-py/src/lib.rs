@@ -12,9 +12,29 @@ mod weights;
 
 use pyo3::prelude::*;
 
+/// The memory budget of core calls in bytes (half the physical memory by default).
+#[pyfunction]
+fn get_memory_limit() -> u64 {
+    errors::memory_limit()
+}
+
+/// Set the memory budget of core calls in bytes; None restores the default.
+#[pyfunction]
+#[pyo3(signature = (nbytes))]
+fn set_memory_limit(nbytes: Option<u64>) -> PyResult<()> {
+    if nbytes == Some(0) {
+        return Err(pyo3::exceptions::PyValueError::new_err("the memory limit must be at least 1 byte"));
+    }
+    errors::set_memory_limit(nbytes.unwrap_or(0));
+    Ok(())
+}
+
 #[pymodule]
 fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
+    errors::load(m.py())?;
     m.add("EARTH_RADIUS_KM", vicino_core::neighbors::EARTH_RADIUS_KM)?;
+    m.add_class::<stats::MoranOut>()?;
+    m.add_class::<graph::HealthOut>()?;
     m.add_function(wrap_pyfunction!(neighbors::k_nearest, m)?)?;
     m.add_function(wrap_pyfunction!(neighbors::within_distance, m)?)?;
     m.add_function(wrap_pyfunction!(weights::validate, m)?)?;
@@ -34,7 +54,11 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
         wrap_pyfunction!(graph::select, m)?,
         wrap_pyfunction!(graph::connect_islands, m)?,
         wrap_pyfunction!(graph::connect_components, m)?,
-        wrap_pyfunction!(graph::centroids, m)?,
+        wrap_pyfunction!(contiguity::centroids, m)?,
+        wrap_pyfunction!(graph::undirected_pairs, m)?,
+        wrap_pyfunction!(weights::neighbour_counts, m)?,
+        wrap_pyfunction!(get_memory_limit, m)?,
+        wrap_pyfunction!(set_memory_limit, m)?,
     ] {
         m.add_function(f)?;
     }

@@ -6,8 +6,8 @@ use numpy::PyReadonlyArray1;
 use pyo3::prelude::*;
 use vicino_core::neighbors::{self, Metric};
 
-/// k nearest neighbours of interleaved coordinates: (indptr, indices,
-/// distances, duplicate_units).
+/// k nearest neighbours of interleaved coordinates: ((indptr, indices,
+/// distances), duplicate_units).
 #[pyfunction]
 pub fn k_nearest<'py>(
     py: Python<'py>,
@@ -16,7 +16,7 @@ pub fn k_nearest<'py>(
     metric: &str,
 ) -> PyResult<(CsrOut<'py>, usize)> {
     let xy = slice(&xy)?;
-    let nb = run(py, || neighbors::k_nearest(xy, k, Metric::parse(metric)?))?;
+    let nb = run(py, |g| neighbors::k_nearest(xy, k, Metric::parse(metric)?, g))?;
     Ok((csr_out(py, nb.graph), nb.duplicate_units))
 }
 
@@ -29,6 +29,6 @@ pub fn within_distance<'py>(
     metric: &str,
 ) -> PyResult<(CsrOut<'py>, usize)> {
     let xy = slice(&xy)?;
-    let nb = run(py, || neighbors::within_distance(xy, radius, Metric::parse(metric)?))?;
+    let nb = run(py, |g| neighbors::within_distance(xy, radius, Metric::parse(metric)?, g))?;
     Ok((csr_out(py, nb.graph), nb.duplicate_units))
 }

@@ -2,13 +2,29 @@
 
 use crate::convert::{slice, CsrArgs};
 use crate::errors::run;
-use numpy::{IntoPyArray, PyReadonlyArray1};
+use numpy::{IntoPyArray, PyArray1, PyReadonlyArray1};
 use pyo3::prelude::*;
-use pyo3::types::PyDict;
 use vicino_core::stats::{global, Alternative};
 
-/// Global Moran's I: a dict of the statistic, its moments and, when
-/// `permutations > 0`, the permutation summary and draws.
+/// Global Moran's I, its moments and, with permutations, their summary.
+#[pyclass(frozen, get_all, module = "vicino._core")]
+pub struct MoranOut {
+    statistic: f64,
+    expected: f64,
+    n: usize,
+    s0: f64,
+    s1: f64,
+    s2: f64,
+    kurtosis: f64,
+    normality_variance: f64,
+    normality_z: f64,
+    randomization_variance: f64,
+    randomization_z: f64,
+    /// (extreme count, p-value, mean, std, z, draws) when permutations > 0
+    permutation: Option<(usize, f64, f64, f64, f64, Py<PyArray1<f64>>)>,
+}
+
+/// Global Moran's I.
 #[pyfunction]
 pub fn moran<'py>(
     py: Python<'py>,
@@ -17,29 +33,24 @@ pub fn moran<'py>(
     permutations: usize,
     seed: u64,
     alternative: &str,
-) -> PyResult<Bound<'py, PyDict>> {
+) -> PyResult<MoranOut> {
     let w = w.view(py)?;
     let x = slice(&x)?;
-    let m = run(py, || global::moran(w, x, permutations, seed, Alternative::parse(alternative)?))?;
-    let d = PyDict::new(py);
-    d.set_item("statistic", m.statistic)?;
-    d.set_item("expected", m.expected)?;
-    d.set_item("n", m.n)?;
-    d.set_item("s0", m.sums.s0)?;
-    d.set_item("s1", m.sums.s1)?;
-    d.set_item("s2", m.sums.s2)?;
-    d.set_item("kurtosis", m.kurtosis)?;
-    d.set_item("normality_variance", m.normality.variance)?;
-    d.set_item("normality_z", m.normality.z)?;
-    d.set_item("randomization_variance", m.randomization.variance)?;
-    d.set_item("randomization_z", m.randomization.z)?;
-    if let Some(p) = m.permutation {
-        d.set_item("perm_extreme", p.extreme)?;
-        d.set_item("perm_p", p.p_value)?;
-        d.set_item("perm_mean", p.mean)?;
-        d.set_item("perm_std", p.std)?;
-        d.set_item("perm_z", p.z)?;
-        d.set_item("perm_draws", p.draws.into_pyarray(py))?;
-    }
-    Ok(d)
+    let m = run(py, |g| global::moran(w, x, permutations, seed, Alternative::parse(alternative)?, g))?;
+    let permutation =
+        m.permutation.map(|p| (p.extreme, p.p_value, p.mean, p.std, p.z, p.draws.into_pyarray(py).unbind()));
+    Ok(MoranOut {
+        statistic: m.statistic,
+        expected: m.expected,
+        n: m.n,
+        s0: m.sums.s0,
+        s1: m.sums.s1,
+        s2: m.sums.s2,
+        kurtosis: m.kurtosis,
+        normality_variance: m.normality.variance,
+        normality_z: m.normality.z,
+        randomization_variance: m.randomization.variance,
+        randomization_z: m.randomization.z,
+        permutation,
+    })
 }

@@ -1,13 +1,15 @@
-//! Validation, standardization, spectral radius and lags of a weights matrix.
+//! Validation, standardization, spectral radius, counts and lags of a weights matrix.
 
 use crate::convert::{slice, CsrArgs};
 use crate::errors::run;
-use numpy::{IntoPyArray, PyArray1, PyArray2, PyReadonlyArray1, PyReadonlyArray2};
+use numpy::{
+    IntoPyArray, PyArray1, PyArray2, PyArrayMethods, PyReadonlyArray1, PyReadonlyArray2, PyUntypedArrayMethods,
+};
 use pyo3::prelude::*;
 use vicino_core::standardize::{self as scale, Islands, Method};
 use vicino_core::{lag, spectral, CsrRef};
 
-/// Full check of CSR buffers: canonical structure, finite, non-negative.
+/// Full check of CSR buffers: canonical structure, weights finite and positive.
 #[pyfunction]
 pub fn validate<'py>(
     py: Python<'py>,
@@ -17,7 +19,15 @@ pub fn validate<'py>(
     data: PyReadonlyArray1<'py, f64>,
 ) -> PyResult<()> {
     let (p, i, d) = (slice(&indptr)?, slice(&indices)?, slice(&data)?);
-    run(py, || CsrRef::validated(n, p, i, d).map(|_| ()))
+    run(py, |_| CsrRef::validated(n, p, i, d).map(|_| ()))
+}
+
+/// Links of each unit to other units (self-links are not neighbours).
+#[pyfunction]
+pub fn neighbour_counts<'py>(py: Python<'py>, w: CsrArgs<'py>) -> PyResult<Bound<'py, PyArray1<i64>>> {
+    let w = w.view(py)?;
+    let counts = run(py, |_| Ok(w.neighbour_counts().into_iter().map(|c| c as i64).collect::<Vec<i64>>()))?;
+    Ok(counts.into_pyarray(py))
 }
 
 /// New data after standardization (the structure is unchanged).
@@ -30,7 +40,7 @@ pub fn standardize<'py>(
 ) -> PyResult<Bound<'py, PyArray1<f64>>> {
     let w = w.view(py)?;
     let islands = if keep_islands { Islands::Keep } else { Islands::Raise };
-    let out = run(py, || scale::standardize(w, Method::parse(method)?, islands))?;
+    let out = run(py, |g| scale::standardize(w, Method::parse(method)?, islands, g))?;
     Ok(out.into_pyarray(py))
 }
 
@@ -38,7 +48,7 @@ pub fn standardize<'py>(
 #[pyfunction]
 pub fn spectral_radius<'py>(py: Python<'py>, w: CsrArgs<'py>) -> PyResult<(f64, usize, &'static str)> {
     let w = w.view(py)?;
-    let r = run(py, || spectral::spectral_radius(w))?;
+    let r = run(py, |g| spectral::spectral_radius(w, g))?;
     let name = match r.method {
         spectral::SpectralMethod::ConstantSums => "constant sums",
         spectral::SpectralMethod::Lanczos => "Lanczos",
@@ -56,10 +66,10 @@ pub fn lag_vector<'py>(
 ) -> PyResult<Bound<'py, PyArray1<f64>>> {
     let w = w.view(py)?;
     let x = slice(&x)?;
-    Ok(run(py, || lag::lag(w, x))?.into_pyarray(py))
+    Ok(run(py, |_| lag::lag(w, x, 1))?.into_pyarray(py))
 }
 
-/// W X for an (n, m) array.
+/// W X for an (n, m) C-contiguous array.
 #[pyfunction]
 pub fn lag_columns<'py>(
     py: Python<'py>,
@@ -67,6 +77,8 @@ pub fn lag_columns<'py>(
     x: PyReadonlyArray2<'py, f64>,
 ) -> PyResult<Bound<'py, PyArray2<f64>>> {
     let w = w.view(py)?;
-    let x = x.as_array();
-    Ok(run(py, || lag::lag_columns(w, x))?.into_pyarray(py))
+    let (rows, m) = (x.shape()[0], x.shape()[1]);
+    let flat = x.as_slice().map_err(|e| pyo3::exceptions::PyValueError::new_err(e.to_string()))?;
+    let out = run(py, |_| lag::lag(w, flat, m))?;
+    out.into_pyarray(py).reshape([rows, m])
 }

@@ -4,7 +4,7 @@
 //! multipolygon; its first ring in each polygon is the exterior, the others
 //! are holes. Nothing is copied; checks are O(coordinates).
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Unit};
 
 /// Borrowed polygons of n units.
 #[derive(Debug, Clone, Copy)]
@@ -48,16 +48,16 @@ impl<'a> Polygons<'a> {
                 for p in ring {
                     for (axis, &value) in p.iter().enumerate() {
                         if !value.is_finite() {
-                            return Err(Error::NonFiniteCoordinate { index: u, axis, value });
+                            return Err(Error::NonFiniteCoordinate { unit: Unit(u), axis, value });
                         }
                         if value.abs() > 1e150 {
-                            return Err(Error::CoordinateTooLarge { index: u, axis, value });
+                            return Err(Error::CoordinateTooLarge { unit: Unit(u), axis, value });
                         }
                     }
                 }
                 if !ring.is_empty() && ring.len() < 3 {
                     return Err(Error::InvalidGeometry {
-                        unit: u,
+                        unit: Unit(u),
                         reason: format!("a ring has only {} points", ring.len()),
                     });
                 }

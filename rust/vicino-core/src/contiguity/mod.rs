@@ -31,15 +31,18 @@
 pub mod contact;
 pub mod geometry;
 
-use crate::csr::Csr;
-use crate::error::{Error, Result};
+use crate::csr::{build_rows, Csr};
+use crate::error::{Error, Pair, Result};
+use crate::guard::Guard;
 use crate::neighbors::metric::{haversine_km, Metric};
+use crate::neighbors::LINK_BYTES;
 use contact::{coincident_interval, meet_exact, near, union_length, Meet};
 use geometry::BBox;
 pub use geometry::Polygons;
 use rayon::prelude::*;
 use rstar::primitives::{GeomWithData, Rectangle};
 use rstar::{RTree, AABB};
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Which contact makes two units neighbours.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -195,7 +198,7 @@ fn pair(
 /// Contiguity of polygons under `rule`, with `tolerance` in coordinate
 /// units; shared lengths and perimeters are measured in `lengths`
 /// (coordinate units, or km along great circles for lon/lat).
-pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric) -> Result<Contiguity> {
+pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric, guard: &Guard) -> Result<Contiguity> {
     if !(tolerance >= 0.0) || !tolerance.is_finite() {
         return Err(Error::InvalidTolerance { tolerance });
     }
@@ -207,30 +210,40 @@ pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric)
         Some(g) => Candidates::Grid(g),
         None => Candidates::Tree(tree_of(&wide)),
     };
-    const CHUNK: usize = 1024;
-    let links: Vec<Vec<(u32, u32, f64)>> = (0..n.div_ceil(CHUNK))
-        .into_par_iter()
-        .map_init(
-            || (Scratch::default(), Vec::new()),
-            |(scratch, js), c| {
-                let mut out = Vec::new();
-                for i in c * CHUNK..((c + 1) * CHUNK).min(n) {
-                    js.clear();
-                    index.visit(&wide, i, js);
-                    js.sort_unstable();
-                    for &j in js.iter() {
-                        if let Some((rook, len)) = pair(p, i, j, &boxes, tolerance, lengths, scratch) {
-                            if rule == Rule::Queen || rook {
-                                out.push((i as u32, j as u32, len));
-                            }
-                        }
+    // the upper triangle, row by row, then mirrored
+    let room = (guard.memory_limit() as f64 / (2.0 * LINK_BYTES)) as usize;
+    let links = AtomicUsize::new(0);
+    let upper = build_rows(
+        n,
+        None,
+        n >= 256,
+        || (Scratch::default(), Vec::new()),
+        |(scratch, js): &mut (Scratch, Vec<usize>), i, cols, lens| {
+            guard.check()?;
+            js.clear();
+            index.visit(&wide, i, js);
+            js.sort_unstable();
+            let before = cols.len();
+            for &j in js.iter() {
+                if let Some((rook, len)) = pair(p, i, j, &boxes, tolerance, lengths, scratch) {
+                    if rule == Rule::Queen || rook {
+                        cols.push(j as i64);
+                        lens.push(len);
                     }
                 }
-                out
-            },
-        )
-        .collect();
-    let graph = symmetric_from_pairs(n, &links);
+            }
+            if links.fetch_add(cols.len() - before, Ordering::Relaxed) > room {
+                return Err(Error::TooLarge {
+                    what: "the contiguity links",
+                    needed: 2.0 * LINK_BYTES * room as f64,
+                    limit: guard.memory_limit(),
+                    advice: "most units touch most others: check that the polygons are not overlapping copies",
+                });
+            }
+            Ok(())
+        },
+    )?;
+    let graph = Csr::from_parts(n, upper).view().plus_transpose();
     let perimeter = (0..n)
         .into_par_iter()
         .map(|u| p.segments_of(u).fold(0.0, |acc, (a, b)| acc + seg_length(lengths, a, b)))
@@ -373,37 +386,6 @@ impl Grid {
     }
 }
 
-/// The symmetric CSR of the links (i, j, value) with i < j, given in
-/// increasing (i, j) order: each row is its lower part (links from smaller
-/// units, met in increasing order) then its upper part. O(n + links).
-fn symmetric_from_pairs(n: usize, links: &[Vec<(u32, u32, f64)>]) -> Csr {
-    let mut lower = vec![0usize; n];
-    let mut upper = vec![0usize; n];
-    for &(i, j, _) in links.iter().flatten() {
-        upper[i as usize] += 1;
-        lower[j as usize] += 1;
-    }
-    let mut indptr = Vec::with_capacity(n + 1);
-    indptr.push(0i64);
-    for r in 0..n {
-        indptr.push(indptr[r] + (lower[r] + upper[r]) as i64);
-    }
-    let nnz = indptr[n] as usize;
-    let (mut indices, mut data) = (vec![0i64; nnz], vec![0.0; nnz]);
-    let mut low: Vec<usize> = (0..n).map(|r| indptr[r] as usize).collect();
-    let mut up: Vec<usize> = (0..n).map(|r| indptr[r] as usize + lower[r]).collect();
-    for &(i, j, v) in links.iter().flatten() {
-        let (i, j) = (i as usize, j as usize);
-        indices[up[i]] = j as i64;
-        data[up[i]] = v;
-        up[i] += 1;
-        indices[low[j]] = i as i64;
-        data[low[j]] = v;
-        low[j] += 1;
-    }
-    Csr::from_canonical(n, indptr, indices, data)
-}
-
 /// Centroid of unit u (area-weighted over its polygons, holes subtracted),
 /// computed with `geo`; None for an empty unit or one of zero area.
 pub fn centroid(p: &Polygons<'_>, u: usize) -> Option<[f64; 2]> {
@@ -445,8 +427,9 @@ pub fn cliff_ord(
     distance_power: f64,
     tolerance: f64,
     metric: Metric,
+    guard: &Guard,
 ) -> Result<(Csr, Contiguity)> {
-    let c = contiguity(p, Rule::Rook, tolerance, metric)?;
+    let c = contiguity(p, Rule::Rook, tolerance, metric, guard)?;
     let n = p.n();
     let centres: Vec<Option<[f64; 2]>> = (0..n).into_par_iter().map(|u| centroid(p, u)).collect();
     let g = c.graph.view();
@@ -461,7 +444,7 @@ pub fn cliff_ord(
                 _ => 0.0,
             };
             if d == 0.0 && distance_power != 0.0 {
-                return Err(Error::CoincidentCentroids { i, j });
+                return Err(Error::CoincidentCentroids { pair: Pair(i, j) });
             }
             let share = if c.perimeter[i] > 0.0 { len / c.perimeter[i] } else { 0.0 };
             let w = share.powf(border_power) / d.powf(distance_power);

@@ -4,7 +4,7 @@
 //! offsets, polygon offsets, unit offsets. Z and M values are skipped.
 //! Units are decoded in parallel; O(bytes).
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Unit};
 use rayon::prelude::*;
 
 /// Flat polygon buffers owned.
@@ -31,7 +31,7 @@ struct Reader<'a> {
 
 impl<'a> Reader<'a> {
     fn fail(&self, what: &str) -> Error {
-        Error::InvalidGeometry { unit: self.unit, reason: format!("malformed WKB ({what} at byte {})", self.pos) }
+        Error::InvalidGeometry { unit: Unit(self.unit), reason: format!("malformed WKB ({what} at byte {})", self.pos) }
     }
     fn take(&mut self, k: usize) -> Result<&'a [u8]> {
         let end = self.pos.checked_add(k).filter(|&e| e <= self.buf.len()).ok_or_else(|| self.fail("truncated"))?;
@@ -116,7 +116,7 @@ impl<'a> Reader<'a> {
                 Ok(())
             }
             other => Err(Error::InvalidGeometry {
-                unit: self.unit,
+                unit: Unit(self.unit),
                 reason: format!("WKB geometry type {other} is not a Polygon (3) or MultiPolygon (6)"),
             }),
         }
@@ -201,7 +201,7 @@ mod tests {
         point.extend(0f64.to_le_bytes());
         assert!(matches!(
             decode_polygons(&point, &[0, point.len() as i64]),
-            Err(Error::InvalidGeometry { unit: 0, .. })
+            Err(Error::InvalidGeometry { unit: Unit(0), .. })
         ));
         assert!(decode_polygons(&a[..10], &[0, 10]).is_err());
     }

@@ -9,7 +9,7 @@
 //!   arc; every reported distance and every comparison with a radius uses the
 //!   haversine arc length.
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Unit};
 
 /// IUGG mean Earth radius R1, in kilometres.
 pub const EARTH_RADIUS_KM: f64 = 6371.0088;
@@ -43,18 +43,18 @@ impl Metric {
         for (index, p) in xy.chunks_exact(2).enumerate() {
             for (axis, &value) in p.iter().enumerate() {
                 if !value.is_finite() {
-                    return Err(Error::NonFiniteCoordinate { index, axis, value });
+                    return Err(Error::NonFiniteCoordinate { unit: Unit(index), axis, value });
                 }
                 if value.abs() > 1e150 {
-                    return Err(Error::CoordinateTooLarge { index, axis, value });
+                    return Err(Error::CoordinateTooLarge { unit: Unit(index), axis, value });
                 }
             }
             if self == Self::GreatCircle {
                 if !(-180.0..=360.0).contains(&p[0]) {
-                    return Err(Error::LongitudeOutOfRange { index, value: p[0] });
+                    return Err(Error::LongitudeOutOfRange { unit: Unit(index), value: p[0] });
                 }
                 if !(-90.0..=90.0).contains(&p[1]) {
-                    return Err(Error::LatitudeOutOfRange { index, value: p[1] });
+                    return Err(Error::LatitudeOutOfRange { unit: Unit(index), value: p[1] });
                 }
             }
         }

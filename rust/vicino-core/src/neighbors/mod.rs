@@ -17,12 +17,15 @@
 
 pub mod metric;
 
-use crate::csr::Csr;
+use crate::csr::{build_rows, Csr};
 use crate::error::{Error, Result};
+use crate::frame::Frame;
+use crate::guard::Guard;
 use kiddo::{ImmutableKdTree, SquaredEuclidean};
 pub use metric::{Metric, EARTH_RADIUS_KM};
 use rayon::prelude::*;
 use std::num::NonZeroUsize;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Neighbour lists: a CSR graph whose data are distances in the metric, plus
 /// how many units share their location with another unit.
@@ -213,42 +216,44 @@ impl Layout {
     }
 }
 
-/// Rows of fixed width k written by many threads at once, each row by
-/// exactly one of them.
-struct FixedRows {
-    cols: *mut i64,
-    dists: *mut f64,
-    k: usize,
-    n: usize,
+/// Bytes per link of a result handed to Python: the column index and the
+/// distance from the core, and the weight Python adds.
+pub const LINK_BYTES: f64 = 24.0;
+
+/// Points ready for searching: checked, in one canonical spelling, and in
+/// the [`Frame`] that keeps squared distances in range.
+#[derive(Debug, Clone)]
+pub struct Prepared<'a> {
+    xy: std::borrow::Cow<'a, [f64]>,
+    frame: Frame,
+    metric: Metric,
 }
 
-// SAFETY: `FixedRows::write` is called at most once per row (rows are the
-// distinct entries of a permutation), so no two threads touch one element.
-unsafe impl Sync for FixedRows {}
-
-impl FixedRows {
-    /// Write row `i` from `(distance, column)` pairs.
-    ///
-    /// # Safety
-    /// No other call may write row `i` concurrently.
-    unsafe fn write(&self, i: usize, row: &[(f64, usize)]) {
-        assert!(i < self.n && row.len() == self.k);
-        for (o, &(d, j)) in row.iter().enumerate() {
-            // SAFETY: i < n and o < k keep the offset inside the n * k buffers.
-            unsafe {
-                *self.cols.add(i * self.k + o) = j as i64;
-                *self.dists.add(i * self.k + o) = d;
-            }
-        }
+impl Prepared<'_> {
+    /// Number of points.
+    pub fn n(&self) -> usize {
+        self.xy.len() / 2
     }
 }
 
-/// Build the search space for `xy` (already checked) and hand it to `f`.
-fn with_space<R>(xy: &[f64], metric: Metric, f: impl FnOnce(&dyn SpaceQuery) -> R) -> R {
-    let pairs = as_pairs(xy);
-    match metric {
-        Metric::Euclidean => f(&Space::<2>::new(pairs, metric, |p| p)),
-        Metric::GreatCircle => f(&Space::<3>::new(pairs, metric, metric::unit_vector)),
+/// Check interleaved coordinates for `metric` and prepare them for searching.
+pub fn prepare(xy: &[f64], metric: Metric) -> Result<Prepared<'_>> {
+    metric.check(xy)?;
+    let canonical = metric.canonical(xy);
+    let frame = Frame::fit(&canonical, metric == Metric::Euclidean)?;
+    let xy = match canonical {
+        std::borrow::Cow::Borrowed(b) => frame.local(b),
+        std::borrow::Cow::Owned(o) => std::borrow::Cow::Owned(frame.local(&o).into_owned()),
+    };
+    Ok(Prepared { xy, frame, metric })
+}
+
+/// Build the search space for prepared points and hand it to `f`.
+fn with_space<R>(p: &Prepared<'_>, f: impl FnOnce(&dyn SpaceQuery) -> R) -> R {
+    let pairs = as_pairs(&p.xy);
+    match p.metric {
+        Metric::Euclidean => f(&Space::<2>::new(pairs, p.metric, |q| q)),
+        Metric::GreatCircle => f(&Space::<3>::new(pairs, p.metric, metric::unit_vector)),
     }
 }
 
@@ -267,17 +272,20 @@ impl<const D: usize> SpaceQuery for Space<'_, D> {
     }
 }
 
-/// Sort each row by column and assemble CSR, in parallel.
-fn assemble(mut rows: Vec<Vec<(f64, usize)>>) -> Csr {
-    rows.par_iter_mut().for_each(|r| r.sort_unstable_by_key(|&(_, j)| j));
-    let mut indptr = Vec::with_capacity(rows.len() + 1);
-    indptr.push(0i64);
-    for r in &rows {
-        indptr.push(indptr[indptr.len() - 1] + r.len() as i64);
+/// Append a row of (distance, column) pairs, sorted by column, to CSR buffers.
+fn push_row(buf: &mut [(f64, usize)], cols: &mut Vec<i64>, dists: &mut Vec<f64>) {
+    buf.sort_unstable_by_key(|&(_, j)| j);
+    for &(d, j) in buf.iter() {
+        cols.push(j as i64);
+        dists.push(d);
     }
-    let indices = rows.par_iter().flat_map_iter(|r| r.iter().map(|&(_, j)| j as i64)).collect();
-    let data = rows.par_iter().flat_map_iter(|r| r.iter().map(|&(d, _)| d)).collect();
-    Csr::from_canonical(rows.len(), indptr, indices, data)
+}
+
+/// Neighbour lists from rows built in Z-order, distances back in world units.
+fn finish(p: &Prepared<'_>, parts: crate::csr::Parts<f64>, duplicate_units: usize) -> Neighbors {
+    let (indptr, indices, mut data) = parts;
+    p.frame.lengths_to_world(&mut data);
+    Neighbors { graph: Csr::from_canonical(p.n(), indptr, indices, data), duplicate_units }
 }
 
 /// The exact `k` nearest neighbours of every point, self excluded.
@@ -287,30 +295,28 @@ fn assemble(mut rows: Vec<Vec<(f64, usize)>>) -> Csr {
 /// place spelled two ways (longitude 190 and -170, any longitude at a pole)
 /// counts as one location.
 /// Ties at the k-th distance go to the lower position. The result's data are
-/// distances (km for great circle).
+/// distances (km for great circle). The output (n k links) is refused when
+/// it would not fit the guard's memory budget.
 ///
 /// ```
-/// use vicino_core::neighbors::{k_nearest, Metric};
+/// use vicino_core::{Guard, neighbors::{k_nearest, Metric}};
 /// let xy = [0.0, 0.0, 1.0, 0.0, 3.0, 0.0];
-/// let nb = k_nearest(&xy, 1, Metric::Euclidean).unwrap();
+/// let nb = k_nearest(&xy, 1, Metric::Euclidean, &Guard::unlimited()).unwrap();
 /// let g = nb.graph.view();
 /// assert_eq!(g.indices(), &[1, 0, 1]);
 /// assert_eq!(g.data(), &[1.0, 1.0, 2.0]);
 /// ```
-pub fn k_nearest(xy: &[f64], k: usize, metric: Metric) -> Result<Neighbors> {
-    let n = metric.check(xy)?;
-    let xy = &*metric.canonical(xy);
+pub fn k_nearest(xy: &[f64], k: usize, metric: Metric, guard: &Guard) -> Result<Neighbors> {
+    let p = prepare(xy, metric)?;
+    let n = p.n();
     if k == 0 || k >= n {
         return Err(Error::InvalidK { k, n });
     }
-    let layout = Layout::new(as_pairs(xy));
-    // every row has exactly k entries: fill the CSR buffers in place, taking
-    // the units in Z-order
-    let mut indices = vec![0i64; n * k];
-    let mut data = vec![0.0f64; n * k];
-    let rows = FixedRows { cols: indices.as_mut_ptr(), dists: data.as_mut_ptr(), k, n };
-    with_space(xy, metric, |space| {
-        layout.order.par_iter().with_min_len(256).for_each_init(Vec::new, |buf, &i| {
+    guard.reserve(n as f64 * k as f64 * LINK_BYTES, "the k nearest neighbours of every unit", "use a smaller k")?;
+    let layout = Layout::new(as_pairs(&p.xy));
+    let parts = with_space(&p, |space| {
+        build_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, i, cols, dists| {
+            guard.check()?;
             let same = layout.same_place(i);
             if same.len() > k {
                 // k copies at distance 0: the lowest positions other than i
@@ -319,90 +325,117 @@ pub fn k_nearest(xy: &[f64], k: usize, metric: Metric) -> Result<Neighbors> {
             } else {
                 space.k_nearest(i, k, buf);
             }
-            buf.sort_unstable_by_key(|&(_, j)| j);
-            // SAFETY: `layout.order` is a permutation, so row i is written once.
-            unsafe { rows.write(i, buf) };
-        });
-    });
-    let indptr = (0..=n as i64).map(|i| i * k as i64).collect();
-    Ok(Neighbors { graph: Csr::from_canonical(n, indptr, indices, data), duplicate_units: layout.duplicate_units })
+            push_row(buf, cols, dists);
+            Ok(())
+        })
+    })?;
+    Ok(finish(&p, parts, layout.duplicate_units))
 }
 
 /// Every pair of distinct points at distance `<= radius` (inclusive), self
-/// excluded. Data are distances (km for great circle).
+/// excluded. Data are distances (km for great circle). The number of links
+/// is estimated from a sample of units first, and counted as they are
+/// found, so an output beyond the guard's memory budget is refused.
 ///
 /// ```
-/// use vicino_core::neighbors::{within_distance, Metric};
+/// use vicino_core::{Guard, neighbors::{within_distance, Metric}};
 /// let xy = [0.0, 0.0, 1.0, 0.0, 3.0, 0.0];
-/// let nb = within_distance(&xy, 2.0, Metric::Euclidean).unwrap();
+/// let nb = within_distance(&xy, 2.0, Metric::Euclidean, &Guard::unlimited()).unwrap();
 /// assert_eq!(nb.graph.view().counts(), vec![1, 2, 1]);
 /// ```
-pub fn within_distance(xy: &[f64], radius: f64, metric: Metric) -> Result<Neighbors> {
-    metric.check(xy)?;
-    let xy = &*metric.canonical(xy);
+pub fn within_distance(xy: &[f64], radius: f64, metric: Metric, guard: &Guard) -> Result<Neighbors> {
+    let p = prepare(xy, metric)?;
     if !(radius >= 0.0) || !radius.is_finite() {
         return Err(Error::InvalidRadius { radius });
     }
-    let layout = Layout::new(as_pairs(xy));
-    // queries in Z-order, then the rows back in unit order
-    let found: Vec<Vec<(f64, usize)>> = with_space(xy, metric, |space| {
-        layout
-            .order
+    let n = p.n();
+    let r = p.frame.to_local(radius);
+    let layout = Layout::new(as_pairs(&p.xy));
+    const ADVICE: &str = "use a smaller radius, or k_nearest for a fixed number of neighbours";
+    const WHAT: &str = "the links within the radius";
+    let parts = with_space(&p, |space| {
+        // estimate the links from units spread over the map (every s-th in Z-order)
+        let step = n.div_ceil(256).max(1);
+        let sample: Vec<usize> = layout.order.iter().step_by(step).copied().collect();
+        let found: usize = sample
             .par_iter()
-            .with_min_len(256)
             .map_init(Vec::new, |buf, &i| {
-                space.within(i, radius, buf);
-                buf.clone()
+                space.within(i, r, buf);
+                buf.len()
             })
-            .collect()
-    });
-    let mut rows = vec![Vec::new(); found.len()];
-    for (row, &i) in found.into_iter().zip(&layout.order) {
-        rows[i] = row;
-    }
-    Ok(Neighbors { graph: assemble(rows), duplicate_units: layout.duplicate_units })
+            .sum();
+        let estimate = found as f64 / sample.len() as f64 * n as f64;
+        guard.reserve(estimate * LINK_BYTES, WHAT, ADVICE)?;
+        // and count them as they come, in case the sample was lucky
+        let room = (guard.memory_limit() as f64 / LINK_BYTES) as usize;
+        let links = AtomicUsize::new(0);
+        build_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, i, cols, dists| {
+            guard.check()?;
+            space.within(i, r, buf);
+            if links.fetch_add(buf.len(), Ordering::Relaxed) + buf.len() > room {
+                return Err(Error::TooLarge {
+                    what: WHAT,
+                    needed: estimate.max(room as f64) * LINK_BYTES,
+                    limit: guard.memory_limit(),
+                    advice: ADVICE,
+                });
+            }
+            push_row(buf, cols, dists);
+            Ok(())
+        })
+    })?;
+    Ok(finish(&p, parts, layout.duplicate_units))
 }
 
 /// The `k` nearest of each query unit among the target units, itself
-/// excluded, sorted by (distance, position); positions refer to `xy`
-/// (interleaved, already checked and canonical). `targets` must be
+/// excluded, sorted by (distance, position); positions refer to the
+/// prepared points, distances are in world units. `targets` must be
 /// increasing. Ties go to the lower position, as in [`k_nearest`].
 pub fn nearest_among(
-    xy: &[f64],
-    metric: Metric,
+    p: &Prepared<'_>,
     targets: &[usize],
     queries: &[usize],
     k: usize,
-) -> Vec<Vec<(f64, usize)>> {
-    let all = as_pairs(xy);
+    guard: &Guard,
+) -> Result<Vec<Vec<(f64, usize)>>> {
+    let all = as_pairs(&p.xy);
     debug_assert!(targets.windows(2).all(|p| p[0] < p[1]));
     let sub: Vec<[f64; 2]> = targets.iter().map(|&t| all[t]).collect();
     if sub.is_empty() {
-        return vec![Vec::new(); queries.len()];
+        return Ok(vec![Vec::new(); queries.len()]);
     }
     fn run<const D: usize>(
         space: &Space<'_, D>,
-        all: &[[f64; 2]],
+        p: &Prepared<'_>,
         targets: &[usize],
         queries: &[usize],
         k: usize,
+        guard: &Guard,
         to_tree: impl Fn([f64; 2]) -> [f64; D] + Sync,
-    ) -> Vec<Vec<(f64, usize)>> {
+    ) -> Result<Vec<Vec<(f64, usize)>>> {
+        let all = as_pairs(&p.xy);
         queries
             .par_iter()
             .with_min_len(64)
             .map_init(Vec::new, |buf, &q| {
+                guard.check()?;
                 // the query's own slot among the targets, if it is one
                 let skip = targets.binary_search(&q).unwrap_or(usize::MAX);
                 space.k_nearest_at(&to_tree(all[q]), all[q], skip, k, buf);
-                buf.iter().map(|&(d, j)| (d, targets[j])).collect()
+                Ok(buf.iter().map(|&(d, j)| (p.frame.to_world(d), targets[j])).collect())
             })
             .collect()
     }
-    match metric {
-        Metric::Euclidean => run(&Space::<2>::new(&sub, metric, |p| p), all, targets, queries, k, |p| p),
-        Metric::GreatCircle => {
-            run(&Space::<3>::new(&sub, metric, metric::unit_vector), all, targets, queries, k, metric::unit_vector)
-        }
+    match p.metric {
+        Metric::Euclidean => run(&Space::<2>::new(&sub, p.metric, |q| q), p, targets, queries, k, guard, |q| q),
+        Metric::GreatCircle => run(
+            &Space::<3>::new(&sub, p.metric, metric::unit_vector),
+            p,
+            targets,
+            queries,
+            k,
+            guard,
+            metric::unit_vector,
+        ),
     }
 }

@@ -20,7 +20,9 @@ use super::moments::{weight_sums, QuadraticForm, WeightSums};
 use super::permutation::{shuffle, stream};
 use super::Alternative;
 use crate::csr::CsrRef;
-use crate::error::{first_positions, Error, Result};
+use crate::error::{Error, Result, Units};
+use crate::frame::{pow2_exponent, times_pow2};
+use crate::guard::Guard;
 use rayon::prelude::*;
 
 /// Variance and z-score under one assumption.
@@ -55,27 +57,57 @@ pub struct Moran {
 }
 
 /// Centred values, checked: right length, finite, not constant.
+///
+/// The values are first divided by a power of two near the largest
+/// magnitude (exact), so that no square or fourth power overflows, and
+/// measured from the first value, which is exact for values close to each
+/// other (Sterbenz's lemma): a large common offset (1e15 + small
+/// variations) keeps every digit of the variation. The values are constant
+/// only when all are equal. Statistics built from z are invariant to its scale.
 pub fn centred(w: CsrRef<'_>, x: &[f64]) -> Result<Vec<f64>> {
     let n = w.n();
     if x.len() != n {
         return Err(Error::LengthMismatch { what: "values", expected: n, got: x.len() });
     }
-    let (count, first) = first_positions(n, |i| !x[i].is_finite());
-    if count > 0 {
-        return Err(Error::NonFiniteValues { count, first });
+    let units = Units::find(n, |i| !x[i].is_finite());
+    if !units.is_empty() {
+        return Err(Error::NonFiniteValues { units });
     }
-    let mean = x.iter().sum::<f64>() / n as f64;
-    let mut z: Vec<f64> = x.iter().map(|v| v - mean).collect();
-    // a second pass removes the rounding error of the first mean, which
-    // matters when the values sit far from zero relative to their spread
-    let rest = z.iter().sum::<f64>() / n as f64;
-    z.iter_mut().for_each(|v| *v -= rest);
-    let spread = z.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-    // spread at rounding level of the mean is no variation at all
-    if spread <= 8.0 * f64::EPSILON * mean.abs() || spread == 0.0 {
+    if x.iter().all(|&v| v == x[0]) {
         return Err(Error::ConstantValues);
     }
+    let e = pow2_exponent(x.iter().fold(0.0f64, |m, v| m.max(v.abs())));
+    let x0 = times_pow2(x[0], -e);
+    let mut z: Vec<f64> = x.iter().map(|&v| times_pow2(v, -e) - x0).collect();
+    // two passes: the second removes the rounding error of the first mean
+    for _ in 0..2 {
+        let mean = z.iter().sum::<f64>() / n as f64;
+        z.iter_mut().for_each(|v| *v -= mean);
+    }
+    // bring the largest |z| near 1 as well, so that z^4 neither overflows nor underflows
+    let top = z.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    if !(top > 0.0) {
+        return Err(Error::ConstantValues);
+    }
+    let f = -pow2_exponent(top);
+    z.iter_mut().for_each(|v| *v = times_pow2(*v, f));
     Ok(z)
+}
+
+/// The data of `w` divided by 2^e, a power of two near the largest weight,
+/// when the weights are far from 1 (exact), so that the weight sums cannot
+/// overflow; statistics are invariant to the scale of W. Returns the
+/// rescaled matrix (None when not needed) and e (0 when not needed).
+pub fn moderate(w: CsrRef<'_>) -> (Option<crate::csr::Csr>, i32) {
+    let top = w.data().iter().copied().fold(0.0f64, f64::max);
+    if !(top > 0.0) {
+        return (None, 0);
+    }
+    let e = pow2_exponent(top);
+    if e.abs() <= 128 {
+        return (None, 0);
+    }
+    (Some(w.with_data(w.data().iter().map(|&v| times_pow2(v, -e)).collect())), e)
 }
 
 /// Counts of draws at least as extreme as `observed`, and the permutation p.
@@ -99,12 +131,19 @@ pub fn permutation_summary(draws: Vec<f64>, observed: f64, centre: f64, alt: Alt
 /// Values of a statistic on `draws` permutations of `z`; draw r shuffles a
 /// copy of `z` with stream (seed, r). Draws are taken two at a time so that
 /// `pair` can share one pass over the weights between them; `one` serves a
-/// last odd draw. Both must give the same value for the same vector.
-pub fn permuted<F1, F2>(z: &[f64], draws: usize, seed: u64, one: F1, pair: F2) -> Vec<f64>
+/// last odd draw. Both must give the same value for the same vector. The
+/// guard is asked for the memory of the draws first and checked between
+/// pairs of draws.
+pub fn permuted<F1, F2>(z: &[f64], draws: usize, seed: u64, guard: &Guard, one: F1, pair: F2) -> Result<Vec<f64>>
 where
     F1: Fn(&[f64]) -> f64 + Sync,
     F2: Fn(&[f64], &[f64]) -> (f64, f64) + Sync,
 {
+    guard.reserve(
+        draws as f64 * 16.0,
+        "keeping the permutation draws",
+        "use fewer permutations (999 or 9,999 are the usual choices)",
+    )?;
     let shuffled = |buf: &mut Vec<f64>, r: usize| {
         buf.copy_from_slice(z);
         shuffle(&mut stream(seed, r as u64), buf);
@@ -114,42 +153,49 @@ where
         .map_init(
             || (z.to_vec(), z.to_vec()),
             |(a, b), p| {
+                guard.check()?;
                 shuffled(a, 2 * p);
-                if 2 * p + 1 < draws {
+                Ok(if 2 * p + 1 < draws {
                     shuffled(b, 2 * p + 1);
                     let (u, v) = pair(a, b);
                     (u, Some(v))
                 } else {
                     (one(a), None)
-                }
+                })
             },
         )
-        .collect();
-    pairs.into_iter().flat_map(|(u, v)| std::iter::once(u).chain(v)).collect()
+        .collect::<Result<_>>()?;
+    Ok(pairs.into_iter().flat_map(|(u, v)| std::iter::once(u).chain(v)).collect())
 }
 
 /// Global Moran's I of `x` under weights `w`.
 ///
 /// ```
-/// use vicino_core::{Csr, stats::{global::moran, Alternative}};
+/// use vicino_core::{Csr, Guard, stats::{global::moran, Alternative}};
 /// // a path 0-1-2-3 with alternating values: every link joins unlike values
 /// let w = Csr::from_rows(vec![vec![(1, 1.0)], vec![(0, 1.0), (2, 1.0)], vec![(1, 1.0), (3, 1.0)], vec![(2, 1.0)]]);
-/// let m = moran(w.view(), &[1.0, 0.0, 1.0, 0.0], 0, 1, Alternative::TwoSided).unwrap();
+/// let m = moran(w.view(), &[1.0, 0.0, 1.0, 0.0], 0, 1, Alternative::TwoSided, &Guard::unlimited()).unwrap();
 /// assert!((m.statistic + 1.0).abs() < 1e-12);
 /// ```
-pub fn moran(w: CsrRef<'_>, x: &[f64], permutations: usize, seed: u64, alt: Alternative) -> Result<Moran> {
+pub fn moran(
+    w: CsrRef<'_>,
+    x: &[f64],
+    permutations: usize,
+    seed: u64,
+    alt: Alternative,
+    guard: &Guard,
+) -> Result<Moran> {
     let n = w.n();
     if n < 4 {
         return Err(Error::TooFewUnits { what: "Moran's I with its variance", need: 4, n });
     }
-    let (count, first) = first_positions(n, |i| {
-        let (c, v) = w.row(i);
-        c.iter().zip(v).any(|(&j, &x)| j as usize == i && x != 0.0)
-    });
-    if count > 0 {
-        return Err(Error::SelfLinks { what: "Moran's I", count, first });
+    let units = Units::find(n, |i| w.row(i).0.iter().any(|&j| j as usize == i));
+    if !units.is_empty() {
+        return Err(Error::SelfLinks { what: "Moran's I", units });
     }
     let z = centred(w, x)?;
+    let (moderated, e) = moderate(w);
+    let w = moderated.as_ref().map_or(w, |m| m.view());
     let (sums, q) = weight_sums(w);
     if !(sums.s0 > 0.0) {
         return Err(Error::NoWeight { what: "Moran's I" });
@@ -176,14 +222,18 @@ pub fn moran(w: CsrRef<'_>, x: &[f64], permutations: usize, seed: u64, alt: Alte
             &y,
             permutations,
             seed,
+            guard,
             |yp| stat(&q, yp),
             |a, b| {
                 let (u, v) = q.eval_local_pair(a, b);
                 (scale * u, scale * v)
             },
-        );
-        permutation_summary(draws, statistic, expected, alt)
+        )?;
+        Ok(permutation_summary(draws, statistic, expected, alt))
     });
+    let permutation = permutation.transpose()?;
+    // the sums as the given weights have them (they may overflow; I does not)
+    let sums = WeightSums { s0: times_pow2(s0, e), s1: times_pow2(s1, 2 * e), s2: times_pow2(s2, 2 * e) };
     Ok(Moran {
         statistic,
         expected,

@@ -1,0 +1,215 @@
+"""The one way into the compiled core (:mod:`vicino._core`).
+
+Every call goes through a function here, which
+
+* hands the core private, read-only snapshots of the arrays (contiguous,
+  float64 / int64 in native byte order): the core reads them without the
+  GIL, so an array another thread could write to is copied first, and the
+  result never depends on what other threads do meanwhile;
+* marks the arrays the core returns read-only, so weights built from them
+  stay immutable;
+* turns the positions that core errors carry into ids (:func:`_ids.render`).
+
+Nothing here computes: the core does.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any, TypeVar
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+
+from . import _core
+from ._ids import render
+from .errors import InvalidInputError, VicinoError
+
+R = TypeVar("R")
+Ints = npt.NDArray[np.int64]
+Floats = npt.NDArray[np.float64]
+Csr = tuple[Ints, Ints, Floats]
+CoreMatrix = tuple[int, Ints, Ints, Floats]  # (n, indptr, indices, data) of a Weights
+Polygons = tuple[str, Any, Ints]
+
+EARTH_RADIUS_KM: float = _core.EARTH_RADIUS_KM
+
+
+def _is_frozen(a: Any) -> bool:
+    """Whether nobody can write to the memory of ``a``: read-only all the way to its owner."""
+    while isinstance(a, np.ndarray):
+        if a.flags.writeable:
+            return False
+        a = a.base
+    return a is None or isinstance(a, bytes) or type(a).__name__ == "PySliceContainer"
+
+
+def frozen(values: Any, dtype: type = np.float64) -> np.ndarray:
+    """A C-contiguous, native-order, read-only snapshot of ``values`` that nobody else can write."""
+    if isinstance(values, np.ma.MaskedArray):
+        raise InvalidInputError("masked arrays must be filled or have their masked rows dropped first")
+    arr = np.ascontiguousarray(values, dtype=dtype)
+    if _is_frozen(arr):
+        return arr
+    shared = isinstance(values, np.ndarray) and np.may_share_memory(arr, values)
+    if shared or arr is values:
+        arr = arr.copy()
+    arr.flags.writeable = False
+    return arr
+
+
+def owned(a: np.ndarray) -> np.ndarray:
+    """An array the core returned, made read-only (nobody else holds it)."""
+    a.flags.writeable = False
+    return a
+
+
+def _owned_csr(csr: Csr) -> Csr:
+    return owned(csr[0]), owned(csr[1]), owned(csr[2])
+
+
+def _run(fn: Callable[..., R], ids: pd.Index | None, *args: Any) -> R:
+    try:
+        return fn(*args)
+    except VicinoError as err:
+        raise render(err, ids) from None
+
+
+# ---- memory budget ----------------------------------------------------------
+def get_memory_limit() -> int:
+    """The memory budget of vicino's computations, in bytes."""
+    return _core.get_memory_limit()
+
+
+def set_memory_limit(nbytes: int | None) -> None:
+    """Set the memory budget in bytes (None: half the physical memory)."""
+    _core.set_memory_limit(nbytes)
+
+
+# ---- builders ----------------------------------------------------------------
+def k_nearest(xy: Any, k: int, metric: str, ids: pd.Index) -> tuple[Csr, int]:
+    """k nearest neighbours: ((indptr, indices, distances), units sharing a location)."""
+    csr, dup = _run(_core.k_nearest, ids, frozen(xy).reshape(-1), k, metric)
+    return _owned_csr(csr), dup
+
+
+def within_distance(xy: Any, radius: float, metric: str, ids: pd.Index) -> tuple[Csr, int]:
+    """All neighbours within a distance: ((indptr, indices, distances), units sharing a location)."""
+    csr, dup = _run(_core.within_distance, ids, frozen(xy).reshape(-1), radius, metric)
+    return _owned_csr(csr), dup
+
+
+def validate(n: int, indptr: Any, indices: Any, data: Any, ids: pd.Index | None) -> tuple[Ints, Ints, Floats]:
+    """Snapshots of CSR buffers after the full check (canonical, weights finite and positive)."""
+    p, i, d = frozen(indptr, np.int64), frozen(indices, np.int64), frozen(data)
+    _run(_core.validate, ids, n, p, i, d)
+    return p, i, d
+
+
+def contiguity(polygons: Polygons, rule: str, tolerance: float, ids: pd.Index) -> tuple[Csr, Floats]:
+    """Contiguity: ((indptr, indices, shared border lengths), perimeters)."""
+    csr, perimeter, _ = _run(_core.contiguity, ids, _frozen_polygons(polygons), rule, tolerance, "euclidean")
+    return _owned_csr(csr), owned(perimeter)
+
+
+def cliff_ord(
+    polygons: Polygons, border_power: float, distance_power: float, tolerance: float, metric: str, ids: pd.Index
+) -> tuple[Csr, Floats]:
+    """Cliff-Ord weights: ((indptr, indices, weights), perimeters)."""
+    csr, perimeter, _ = _run(
+        _core.cliff_ord, ids, _frozen_polygons(polygons), border_power, distance_power, tolerance, metric
+    )
+    return _owned_csr(csr), owned(perimeter)
+
+
+def centroids(polygons: Polygons, ids: pd.Index | None) -> Floats:
+    """Area-weighted centroids as an (n, 2) array (NaN rows for empty units)."""
+    return owned(_run(_core.centroids, ids, _frozen_polygons(polygons)).reshape(-1, 2))
+
+
+def _frozen_polygons(polygons: Polygons) -> Polygons:
+    kind, values, offsets = polygons
+    return kind, frozen(values, np.uint8 if kind == "wkb" else np.float64), frozen(offsets, np.int64)
+
+
+# ---- using weights -------------------------------------------------------------
+def neighbour_counts(w: CoreMatrix, ids: pd.Index) -> Ints:
+    """Links of each unit to other units."""
+    return owned(_run(_core.neighbour_counts, ids, w))
+
+
+def standardize(w: CoreMatrix, method: str, keep_islands: bool, ids: pd.Index) -> Floats:
+    """New data after standardization."""
+    return owned(_run(_core.standardize, ids, w, method, keep_islands))
+
+
+def spectral_radius(w: CoreMatrix, ids: pd.Index) -> tuple[float, int, str]:
+    """(spectral radius, iterations, method)."""
+    return _run(_core.spectral_radius, ids, w)
+
+
+def lag(w: CoreMatrix, values: np.ndarray, ids: pd.Index) -> np.ndarray:
+    """W x for a vector, W X for an (n, m) array."""
+    x = frozen(values)
+    if x.ndim == 1:
+        return _run(_core.lag_vector, ids, w, x)
+    return _run(_core.lag_columns, ids, w, x)
+
+
+def moran(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternative: str, ids: pd.Index) -> Any:
+    """Global Moran's I (a `_core.MoranOut`)."""
+    return _run(_core.moran, ids, w, frozen(x), permutations, seed, alternative)
+
+
+def health(w: CoreMatrix, ids: pd.Index) -> Any:
+    """The facts of an audit (a `_core.HealthOut`)."""
+    return _run(_core.health, ids, w)
+
+
+def components(w: CoreMatrix, ids: pd.Index) -> tuple[Ints, list[int]]:
+    """Component labels (0 = largest) and sizes, largest first."""
+    labels, sizes = _run(_core.components, ids, w)
+    return owned(labels), sizes
+
+
+def undirected_pairs(w: CoreMatrix, ids: pd.Index) -> Ints:
+    """Each linked pair once, as an (m, 2) array of positions (lower first)."""
+    return owned(_run(_core.undirected_pairs, ids, w))
+
+
+def order(w: CoreMatrix, k: int, cumulative: bool, ids: pd.Index) -> Csr:
+    """Binary k-step neighbours."""
+    return _owned_csr(_run(_core.order, ids, w, k, cumulative))
+
+
+def combine(a: CoreMatrix, b: CoreMatrix, op: str, ids: pd.Index) -> Csr:
+    """Binary union, intersection or difference of links."""
+    return _owned_csr(_run(_core.combine, ids, a, b, op))
+
+
+def symmetrize(w: CoreMatrix, how: str, ids: pd.Index) -> Csr:
+    """A symmetric matrix from w and its transpose."""
+    return _owned_csr(_run(_core.symmetrize, ids, w, how))
+
+
+def select(w: CoreMatrix, keep: np.ndarray, ids: pd.Index) -> tuple[Csr, Ints]:
+    """The weights among the units at ``keep``, and the source entry of each entry."""
+    csr, source = _run(_core.select, ids, w, frozen(keep, np.int64))
+    return _owned_csr(csr), owned(source)
+
+
+def connect_islands(
+    w: CoreMatrix, xy: np.ndarray, metric: str, k: int, weight: float, ids: pd.Index
+) -> tuple[Csr, Ints, list[tuple[int, int, float]]]:
+    """Links from each island to its k nearest located units."""
+    csr, source, added = _run(_core.connect_islands, ids, w, frozen(xy).reshape(-1), metric, k, weight)
+    return _owned_csr(csr), owned(source), added
+
+
+def connect_components(
+    w: CoreMatrix, xy: np.ndarray, metric: str, weight: float, ids: pd.Index
+) -> tuple[Csr, Ints, list[tuple[int, int, float]]]:
+    """One link from each smaller component to the largest."""
+    csr, source, added = _run(_core.connect_components, ids, w, frozen(xy).reshape(-1), metric, weight)
+    return _owned_csr(csr), owned(source), added

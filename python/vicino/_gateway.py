@@ -49,7 +49,7 @@ def frozen(values: Any, dtype: type = np.float64) -> np.ndarray:
     """A C-contiguous, native-order, read-only snapshot of ``values`` that nobody else can write."""
     if isinstance(values, np.ma.MaskedArray):
         raise InvalidInputError("masked arrays must be filled or have their masked rows dropped first")
-    arr = np.ascontiguousarray(values, dtype=dtype)
+    arr: np.ndarray = np.ascontiguousarray(values, dtype=dtype)
     if _is_frozen(arr):
         return arr
     shared = isinstance(values, np.ndarray) and np.may_share_memory(arr, values)
@@ -89,7 +89,7 @@ def set_memory_limit(nbytes: int | None) -> None:
 
 # ---- builders ----------------------------------------------------------------
 def k_nearest(xy: Any, k: int, metric: str, ids: pd.Index) -> tuple[Csr, int]:
-    """k nearest neighbours: ((indptr, indices, distances), units sharing a location)."""
+    """K nearest neighbours: ((indptr, indices, distances), units sharing a location)."""
     csr, dup = _run(_core.k_nearest, ids, frozen(xy).reshape(-1), k, metric)
     return _owned_csr(csr), dup
 

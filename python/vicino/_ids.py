@@ -38,7 +38,7 @@ def make_ids(ids: Any, n: int, default: pd.Index | None = None) -> pd.Index:
         source = "ids"
     if len(index) != n:
         raise IdError(f"{source} has {len(index)} entries but there are {n} units; give one id per unit")
-    missing = index.isna()
+    missing = np.asarray(index.isna())
     if missing.any():
         raise IdError(
             f"{source} holds {int(missing.sum())} missing id(s) (NaN / None / NA) at positions "
@@ -115,7 +115,14 @@ def render(err: VicinoError, ids: pd.Index | None) -> VicinoError:
     if not named:
         return err
     parts = str(err.args[0]).split(MARK) if err.args else [""]
-    text = "".join(_phrase(*named[int(piece)], ids=ids) if k % 2 else piece for k, piece in enumerate(parts))
+    pieces = []
+    for k, piece in enumerate(parts):
+        if k % 2:
+            kind, where, count = named[int(piece)]
+            pieces.append(_phrase(kind, where, count, ids))
+        else:
+            pieces.append(piece)
+    text = "".join(pieces)
     positions = [p for _, where, _ in named for p in where]
     count = max((c for kind, _, c in named if kind == "units"), default=len(set(positions)))
     out = type(err)(

@@ -88,7 +88,7 @@ def as_values(values: Any, ids: pd.Index, *, allow_2d: bool) -> tuple[np.ndarray
         raise InvalidValuesError(f"values have {arr.shape[0]} rows but the weights have {len(ids)} units")
     if arr.ndim == 2 and arr.shape[1] == 0:
         raise InvalidValuesError("values have no columns; give at least one variable")
-    finite = np.isfinite(arr) if arr.ndim == 1 else np.isfinite(arr).all(axis=1)
+    finite = np.asarray(np.isfinite(arr) if arr.ndim == 1 else np.isfinite(arr).all(axis=1))
     if not finite.all():
         where = np.flatnonzero(~finite)
         raise InvalidValuesError(
@@ -106,7 +106,7 @@ def _array(values: Any, ids: pd.Index) -> np.ndarray:
     if isinstance(values, np.ma.MaskedArray):
         mask = np.ma.getmaskarray(values)
         if mask.any():
-            rows = mask if mask.ndim == 1 else mask.reshape(mask.shape[0], -1).any(axis=1)
+            rows = np.asarray(mask if mask.ndim == 1 else mask.reshape(mask.shape[0], -1).any(axis=1))
             if len(rows) == len(ids):
                 raise _missing_error(rows, ids, "values (masked)")
             raise InvalidValuesError(f"{int(mask.sum())} value(s) are masked; fill or drop them first")

@@ -9,11 +9,10 @@ from __future__ import annotations
 
 import html
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
-
-from typing import Any
 
 from ._ids import examples
 
@@ -192,6 +191,7 @@ class Audit:
         if self.symmetric:
             yield Finding("ok", "symmetry", "the weights are symmetric (w_ij = w_ji)")
         else:
+            assert self.max_asymmetry is not None
             value, a, b = self.max_asymmetry
             if self.one_way_links:
                 head = f"{self.one_way_links:,} link(s) run one way only"
@@ -308,10 +308,13 @@ class Audit:
         lines.append("  neighbour counts:")
         top = max(int(self.histogram["units"].max()), 1)
         label = max(len(v) for v in self.histogram["neighbours"])
-        for row in self.histogram.itertuples():
-            bar = "=" * max(int(round(30 * row.units / top)), 1 if row.units else 0)
-            lines.append(f"    {row.neighbours:>{label}} | {bar + ' ' if bar else ''}{row.units:,}")
+        for name, units in self._histogram_rows():
+            bar = "=" * max(round(30 * units / top), 1 if units else 0)
+            lines.append(f"    {name:>{label}} | {bar + ' ' if bar else ''}{units:,}")
         return "\n".join(lines)
+
+    def _histogram_rows(self) -> list[tuple[str, int]]:
+        return list(zip(map(str, self.histogram["neighbours"]), map(int, self.histogram["units"]), strict=True))
 
     def _repr_html_(self) -> str:
         tint = {"problem": "#c8553d", "warning": "#d49a2a", "note": "#3d5a80", "ok": "#5a8f6a"}
@@ -322,8 +325,8 @@ class Audit:
             for f in self.findings
         )
         hist = "".join(
-            f"<tr><td>{html.escape(r.neighbours)}</td><td>{r.units:,}</td><td>{100 * r.share:.1f}%</td></tr>"
-            for r in self.histogram.itertuples()
+            f"<tr><td>{html.escape(name)}</td><td>{units:,}</td><td>{100 * units / self.n:.1f}%</td></tr>"
+            for name, units in self._histogram_rows()
         )
         return (
             f"<div><strong>Weights audit</strong>: {html.escape(self._head())}"

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import warnings
-from typing import Any, Literal
+from typing import Any, Literal, cast
 
 import numpy as np
 import pandas as pd
@@ -154,7 +154,7 @@ def from_matrix(matrix: Any, *, ids: Any = None, network: bool = False) -> Weigh
             raise InvalidMatrixError("the matrix has masked entries; fill them (0 for no link) first")
         matrix = matrix.data
     if sp.issparse(matrix):
-        m = sp.csr_array(matrix, copy=True)
+        m = sp.csr_array(cast(Any, matrix), copy=True)
     else:
         try:
             arr = np.asarray(matrix)

@@ -329,10 +329,10 @@ def _added_pairs(before, after, step: str) -> pd.DataFrame:
 def _pairs_text(pairs: pd.DataFrame) -> str:
     if pairs.empty:
         return "  (none)"
-    width = max(len(f"{a} - {b}") for a, b in zip(pairs["district"], pairs["linked_to"]))
+    width = max(len(f"{a} - {b}") for a, b in zip(pairs["district"], pairs["linked_to"], strict=True))
     return "\n".join(
         f"  {f'{a} - {b}':<{width}}  {d:5.1f} km"
-        for a, b, d in zip(pairs["district"], pairs["linked_to"], pairs["distance_km"])
+        for a, b, d in zip(pairs["district"], pairs["linked_to"], pairs["distance_km"], strict=True)
     )
 
 
@@ -521,7 +521,7 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
                 "E[I]": r.expected,
                 "z (randomization)": r.randomization.z,
                 "p (randomization)": r.randomization.p_value,
-                "p (permutation)": r.permutation.p_value,
+                "p (permutation)": r.permutation.p_value if r.permutation is not None else float("nan"),
             }
         )
     table = pd.DataFrame(rows).set_index("weights")
@@ -549,7 +549,9 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
             df.to_csv(out / f"{name}.csv")
         print(f"\nTables written to {out.resolve()}:")
         print(_names(f"{n}.csv" for n in tables))
-        plots = _save_plots(out, built["queen"], repaired, shapes) if repaired is not None else []
+        plots = (
+            _save_plots(out, built["queen"], repaired, shapes) if repaired is not None and shapes is not None else []
+        )
         if plots:
             print("Pictures of the queen weights, before and after repair:")
             print(_names(plots))

@@ -201,7 +201,8 @@ def as_points(points, *, ids=None, columns=None) -> tuple[np.ndarray, pd.Index]:
             xy = _numeric(points, "coordinates")
     if xy.ndim != 2 or xy.shape[1] != 2:
         raise InvalidInputError(
-            f"points must have shape (n, 2), one row per unit with x and y (or longitude and latitude); got shape {xy.shape}"
+            "points must have shape (n, 2), one row per unit with x and y (or longitude and latitude); "
+            f"got shape {xy.shape}"
         )
     if xy.shape[0] == 0:
         raise InvalidInputError("no points were given; pass at least two locations")
@@ -209,15 +210,16 @@ def as_points(points, *, ids=None, columns=None) -> tuple[np.ndarray, pd.Index]:
     return np.ascontiguousarray(xy, dtype=np.float64), units
 
 
-def _geometry_values(polygons) -> tuple[np.ndarray, pd.Index | None]:
+def _geometry_values(polygons: Any) -> tuple[np.ndarray, pd.Index | None]:
     """An object array of geometries and the pandas index, if any."""
     index = None
+    values: np.ndarray
     if isinstance(polygons, pd.DataFrame):
         if "geometry" not in polygons.columns and not hasattr(polygons, "geometry"):
             raise InvalidTypeError("a DataFrame of polygons needs a 'geometry' column (a GeoDataFrame works)")
         index = polygons.index
-        values = polygons.geometry if hasattr(polygons, "geometry") else polygons["geometry"]
-        values = np.asarray(values, dtype=object)
+        column = polygons.geometry if hasattr(polygons, "geometry") else polygons["geometry"]
+        values = np.asarray(column, dtype=object)
     elif isinstance(polygons, pd.Series):
         index = polygons.index
         values = np.asarray(polygons.to_numpy(), dtype=object)
@@ -330,7 +332,7 @@ def unit_locations(locations: Any, ids: pd.Index) -> tuple[np.ndarray, np.ndarra
     else:
         xy, units = as_points(locations)
         geoms = None
-        bad = ~np.isfinite(xy).all(axis=1)
+        bad = np.asarray(~np.isfinite(xy).all(axis=1))
         if bad.any():
             named = ids[bad] if len(units) == len(ids) else units[bad]
             where = np.flatnonzero(bad)

@@ -1,9 +1,9 @@
-"""Pictures of the neighbour structure (matplotlib, an optional extra:
-``pip install 'vicino[plot]'``).
+"""Pictures of the neighbour structure.
 
-The look is vicino's own: muted ink for ordinary links and units, a warm
-rust for islands and an ochre for units outside the largest component, so
-the things that need attention stand out and everything else recedes.
+matplotlib is an optional extra: ``pip install 'vicino[plot]'``. The look
+is vicino's own: muted ink for ordinary links and units, a warm rust for
+islands and an ochre for units outside the largest component, so the things
+that need attention stand out and everything else recedes.
 """
 
 from __future__ import annotations

@@ -1,6 +1,4 @@
-"""The :class:`Weights` type: an immutable spatial weights matrix with ids
-and a record of how it was made.
-"""
+"""The :class:`Weights` type: an immutable spatial weights matrix with ids and a record of how it was made."""
 
 from __future__ import annotations
 
@@ -18,9 +16,8 @@ import scipy.sparse as sp
 
 from . import _gateway as core
 from ._checks import choice, real_number, whole_number
-from ._ids import check_index, examples, id_differences, is_unit_key, make_ids
+from ._ids import examples, id_differences, is_unit_key, make_ids
 from ._values import as_values
-from .geometry import unit_locations
 from .errors import (
     IdError,
     InvalidMatrixError,
@@ -28,6 +25,7 @@ from .errors import (
     InvalidParameterTypeError,
     VicinoError,
 )
+from .geometry import unit_locations
 
 if TYPE_CHECKING:
     from .audit import Audit
@@ -287,8 +285,10 @@ class Weights:
         return self.to_scipy().toarray()
 
     def to_edges(self) -> pd.DataFrame:
-        """One row per link: focal id, neighbour id, weight, and what the builder knew of the
-        link (``distance`` for point builders, ``border_length`` for polygon builders).
+        """One row per link: focal id, neighbour id, weight, and what the builder knew of the link.
+
+        The facts are ``distance`` for point builders and ``border_length``
+        for polygon builders.
         """
         rows = np.repeat(np.arange(self.n), np.diff(self._indptr))
         out = {"focal": self._ids.take(rows), "neighbor": self._ids.take(self._indices), "weight": self._data}
@@ -359,7 +359,9 @@ class Weights:
 
     # ---- health ------------------------------------------------------
     def audit(self) -> Audit:
-        """A health report: neighbour counts, islands, components, symmetry, zero
+        """A health report of the weights.
+
+        It covers neighbour counts, islands, components, symmetry, zero
         columns, self-links, density, uneven counts, duplicate locations, and
         the exogeneity caution for weights from a network. Each finding has a
         level (problem, warning, note, ok) and says what to do.
@@ -383,8 +385,9 @@ class Weights:
         return plot_counts(self._neighbour_counts(), ax=ax)
 
     def plot_links(self, locations: Any, ax: Any = None) -> Any:
-        """Links drawn between unit centres over the polygons or points, islands and
-        smaller components marked; returns the matplotlib Axes.
+        """Links drawn between unit centres over the polygons or points; returns the matplotlib Axes.
+
+        Islands and units of smaller components are marked.
         """
         from .plots import plot_links
 
@@ -402,7 +405,7 @@ class Weights:
         source: np.ndarray | None = None,
         ids: pd.Index | None = None,
         keep: np.ndarray | None = None,
-        duplicates: int | None | Literal["same"] = "same",
+        duplicates: int | Literal["same"] | None = "same",
         new_distances: list[float] | None = None,
     ) -> Weights:
         """New weights from core buffers.
@@ -442,9 +445,10 @@ class Weights:
         return self._rebuild(out, Step("symmetrize", {"how": how}))
 
     def order(self, k: int, *, cumulative: bool = False) -> Weights:
-        """Binary weights of k-step neighbours: units exactly ``k`` links away
-        (shortest path of k links along the links' direction), or 1 to ``k``
-        links away when ``cumulative``. A unit is never its own k-step
+        """Binary weights of k-step neighbours.
+
+        Units exactly ``k`` links away (shortest path of k links along the
+        links' direction), or 1 to ``k`` links away when ``cumulative``. A unit is never its own k-step
         neighbour. ``order(1)`` is the binary form of the weights (less any
         self-links).
         """
@@ -505,12 +509,13 @@ class Weights:
                 UserWarning,
                 stacklevel=3,
             )
-        dup = "same" if len(keep) == self.n else None
+        dup: Literal["same"] | None = "same" if len(keep) == self.n else None
         return self._rebuild(out, step, source=source, ids=self._ids.take(keep), keep=keep, duplicates=dup)
 
     def subset(self, ids) -> Weights:
-        """The weights among the given units only, in the given order; links to other units are dropped
-        (units may become islands: audit() tells).
+        """The weights among the given units only, in the given order.
+
+        Links to other units are dropped (units may become islands: audit() tells).
         """
         keep = self._positions(ids, "subset")
         return self._select(keep, Step("subset", {"units": len(keep)}))
@@ -527,9 +532,11 @@ class Weights:
         return self._select(keep, Step("drop_islands", {"units": self.n - len(keep)}))
 
     def align(self, index) -> Weights:
-        """The same weights with units reordered to match ``index`` (a DataFrame's
-        index, or any sequence of ids). It must hold exactly the weights' ids:
-        missing or extra ids are an error that lists examples.
+        """The same weights with units reordered to match ``index``.
+
+        ``index`` is a DataFrame's index, or any sequence of ids. It must
+        hold exactly the weights' ids: missing or extra ids are an error that
+        lists examples.
         """
         if isinstance(index, (pd.DataFrame, pd.Series)):
             index = index.index
@@ -605,8 +612,9 @@ class Weights:
         return self._repair(locations, metric, weight, "connect_islands", {"k": k})
 
     def connect_components(self, locations, *, metric: str = "euclidean", weight: float = 1.0) -> Weights:
-        """Link each smaller connected component to the largest, through the
-        closest pair of units (one in each), so that the map is in one piece.
+        """Link each smaller connected component to the largest, so that the map is in one piece.
+
+        The link joins the closest pair of units (one in each).
 
         Locations, weights and symmetry as in :meth:`connect_islands`;
         islands are components of one unit and are linked too.

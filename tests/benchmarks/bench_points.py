@@ -109,7 +109,8 @@ def main() -> None:
         tb, tv = child("time", step, n, args.k, reps)
         mb, mv = child("mem0", step, n, args.k, 1), child("mem1", step, n, args.k, 1)
         print(
-            f"{LABEL[step]:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}",
+            f"{LABEL[step]:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x"
+            f"{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}",
             flush=True,
         )
     print(

@@ -34,6 +34,7 @@ from _shapes import shapely_queen, voronoi
 from shapely import box
 
 import vicino
+from oracles import brute_euclidean, brute_haversine
 
 R1_KM = 6371.0088  # IUGG mean Earth radius R1 (Moritz 2000, GRS80)
 
@@ -121,22 +122,6 @@ def positions(w: vicino.Weights):
     e = w.to_edges()
     pos = pd.Series(np.arange(w.n), index=w.ids)
     return pos[e["focal"]].to_numpy(), pos[e["neighbor"]].to_numpy(), e
-
-
-def brute_distances(xy: np.ndarray) -> np.ndarray:
-    """All pairwise euclidean distances by NumPy broadcasting."""
-    d = xy[:, None, :] - xy[None, :, :]
-    return np.sqrt((d**2).sum(axis=-1))
-
-
-def brute_haversine(lonlat: np.ndarray) -> np.ndarray:
-    """All pairwise great-circle distances (km) by the haversine formula, R1."""
-    lam, phi = np.radians(lonlat[:, 0]), np.radians(lonlat[:, 1])
-    h = (
-        np.sin((phi[:, None] - phi[None, :]) / 2) ** 2
-        + np.cos(phi)[:, None] * np.cos(phi)[None, :] * np.sin((lam[:, None] - lam[None, :]) / 2) ** 2
-    )
-    return 2 * R1_KM * np.arcsin(np.sqrt(np.clip(h, 0.0, 1.0)))
 
 
 def brute_nearest(d: np.ndarray, i: int, k: int) -> list[int]:
@@ -468,7 +453,7 @@ def test_subset_keeps_distances_of_links():
     xy = rng.random((120, 2))
     ids = pd.Index(str_ids(120))
     w = vicino.within_distance(xy, 0.12, ids=ids)
-    full = brute_distances(xy)
+    full = brute_euclidean(xy)
     perm = rng.permutation(120)
     results = (
         w.subset(ids[perm[:70]]),
@@ -539,7 +524,7 @@ def test_connect_islands_hand_built():
     dense = r2.to_dense()
     assert dense[2, 0] == dense[0, 2] == 0.5 and dense[0, 1] == 1.0  # hand calculation: new links weigh 0.5
     # brute force agrees
-    assert added == brute_island_links(m, brute_distances(xy), 1, True)  # reference: numpy brute force
+    assert added == brute_island_links(m, brute_euclidean(xy), 1, True)  # reference: numpy brute force
 
 
 def test_connect_islands_ties_by_position_not_by_id():
@@ -555,7 +540,7 @@ def test_connect_islands_ties_by_position_not_by_id():
         assert sorted(r.neighbors_of("isle").index) == sorted(
             ids[j] for j in expected
         )  # hand calculation: all at distance 1, lower positions first
-        assert brute_nearest(brute_distances(xy), 3, k) == expected  # reference: numpy lexsort (distance, position)
+        assert brute_nearest(brute_euclidean(xy), 3, k) == expected  # reference: numpy lexsort (distance, position)
 
 
 @pytest.mark.parametrize("seed,k", [(81, 1), (82, 2), (83, 3)])
@@ -568,7 +553,7 @@ def test_connect_islands_random_symmetric(seed, k):
     isl = np.flatnonzero(np.diff(m.indptr) == 0)  # reference: scipy empty rows
     assert len(isl) >= 3
     assert w.audit().islands.equals(ids[isl])  # reference: scipy empty rows
-    d = brute_distances(xy)
+    d = brute_euclidean(xy)
     locations = pd.DataFrame({"x": xy[:, 0], "y": xy[:, 1]}, index=ids)  # a DataFrame with the ids as index
     r = w.connect_islands(locations, k=k, weight=2.0)
     expected = brute_island_links(m, d, k, both=True)  # reference: numpy brute force, ties by position
@@ -598,7 +583,7 @@ def test_connect_islands_asymmetric_adds_outgoing_links_only(seed):
     isl = np.flatnonzero(np.diff(m.indptr) == 0)  # reference: scipy empty rows
     assert (np.bincount(m.indices, minlength=n)[isl] > 0).any()  # some islands have in-links (sinks)
     r = w.connect_islands(xy, k=2)
-    expected = brute_island_links(m, brute_distances(xy), 2, both=False)  # reference: numpy brute force
+    expected = brute_island_links(m, brute_euclidean(xy), 2, both=False)  # reference: numpy brute force
     assert all(a in isl for a, _ in expected)  # reference: scipy empty rows (links only leave islands)
     assert vicino_pairs(r) == pairs_of(m) | expected  # reference: numpy brute force (outgoing links only)
     assert len(r.audit().islands) == 0  # reference: numpy brute force (every island got k links)
@@ -660,7 +645,7 @@ def test_connect_components_ties_lower_i_then_j():
     assert added == {(3, 0), (0, 3)}  # hand calculation
     ref = list(nx.connected_components(nx_graph(sp.csr_array(m), directed=False)))  # reference: networkx
     assert added == brute_component_links(
-        ref, 5, brute_distances(xy), True
+        ref, 5, brute_euclidean(xy), True
     )  # reference: numpy brute force, (distance, i, j)
 
 
@@ -674,7 +659,7 @@ def test_connect_components_random_symmetric(seed):
     assert len(ref) >= 4
     r = w.connect_components(xy)
     expected = brute_component_links(
-        ref, 160, brute_distances(xy), both=True
+        ref, 160, brute_euclidean(xy), both=True
     )  # reference: numpy brute force closest pairs
     assert len(expected) == 2 * (len(ref) - 1)
     assert vicino_pairs(r) == vicino_pairs(w) | expected  # reference: numpy brute force closest pairs
@@ -695,7 +680,7 @@ def test_connect_components_asymmetric_adds_one_way_links(seed):
     ref = list(nx.weakly_connected_components(nx_graph(m, directed=True)))  # reference: networkx weak components
     assert len(ref) >= 2
     r = w.connect_components(xy)
-    expected = brute_component_links(ref, len(xy), brute_distances(xy), both=False)  # reference: numpy brute force
+    expected = brute_component_links(ref, len(xy), brute_euclidean(xy), both=False)  # reference: numpy brute force
     assert vicino_pairs(r) == vicino_pairs(w) | expected  # reference: numpy brute force (one way, small -> largest)
     assert nx.is_weakly_connected(nx_graph(r.to_scipy(), directed=True))  # reference: networkx
     assert r.audit().components.count == 1  # reference: networkx.is_weakly_connected (above)
@@ -715,7 +700,7 @@ def test_repairs_locate_polygons_at_area_centroids():
     r = w.connect_islands(polys)
     assert r.neighbors_of("L").index.tolist() == ["S1"]  # hand calculation: sqrt(2) * 61/14 < sqrt(2) * 65/14
     assert vicino_pairs(r) - vicino_pairs(w) == brute_island_links(
-        w.to_scipy(), brute_distances(c), 1, True
+        w.to_scipy(), brute_euclidean(c), 1, True
     )  # reference: shapely.centroid + numpy
     # components {S1, S1b} (label 0: tie of size 2, holds the earlier unit), {S2, S2b}, {L}
     comps = w.audit().components
@@ -723,7 +708,7 @@ def test_repairs_locate_polygons_at_area_centroids():
     cc = w.connect_components(pd.Series(polys, index=w.ids))
     ref = list(nx.connected_components(nx_graph(w.to_scipy(), directed=False)))  # reference: networkx
     assert vicino_pairs(cc) - vicino_pairs(w) == brute_component_links(
-        ref, 5, brute_distances(c), True
+        ref, 5, brute_euclidean(c), True
     )  # reference: shapely.centroid + numpy
     assert vicino_pairs(cc) - vicino_pairs(w) == {
         (0, 1),
@@ -744,7 +729,7 @@ def test_repairs_with_voronoi_cells_as_locations(seed):
     sub = cells[keep]
     w = vicino.contiguity(sub, "queen")
     c = shapely.get_coordinates(shapely.centroid(sub))  # reference: shapely.centroid (area-weighted)
-    d = brute_distances(c)
+    d = brute_euclidean(c)
     m = w.to_scipy()
     assert (np.diff(m.indptr) == 0).sum() >= 1
     r = w.connect_islands(sub, k=2)

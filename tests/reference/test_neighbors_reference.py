@@ -22,6 +22,7 @@ import scipy.sparse as sp
 from scipy.spatial import cKDTree
 
 import vicino
+from oracles import brute_euclidean, brute_haversine
 
 # IUGG mean Earth radius R1 in km (Moritz 2000, GRS80).
 R1_KM = 6371.0088
@@ -41,22 +42,6 @@ def edges_by_row(w: vicino.Weights) -> list[dict]:
         cols = m.indices[a:b].tolist()
         out.append(dict(zip(cols, dist[a:b].tolist())))
     return out
-
-
-def brute_euclidean(xy: np.ndarray) -> np.ndarray:
-    """All pairwise euclidean distances by NumPy broadcasting."""
-    d = xy[:, None, :] - xy[None, :, :]
-    return np.sqrt((d**2).sum(axis=-1))
-
-
-def brute_haversine(lonlat: np.ndarray, radius: float = R1_KM) -> np.ndarray:
-    """All pairwise great-circle distances (km) by the haversine formula."""
-    lam = np.radians(lonlat[:, 0])
-    phi = np.radians(lonlat[:, 1])
-    dphi = phi[:, None] - phi[None, :]
-    dlam = lam[:, None] - lam[None, :]
-    h = np.sin(dphi / 2) ** 2 + np.cos(phi)[:, None] * np.cos(phi)[None, :] * np.sin(dlam / 2) ** 2
-    return 2 * radius * np.arcsin(np.sqrt(np.clip(h, 0.0, 1.0)))
 
 
 def brute_knn(d: np.ndarray, k: int) -> list[list[int]]:

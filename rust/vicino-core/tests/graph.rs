@@ -1,3 +1,5 @@
+// Dense oracles index their matrices by (i, j), as the formulas do.
+#![allow(clippy::needless_range_loop)]
 //! Property tests of the graph operations and repairs, each against a dense
 //! brute-force oracle (Floyd-Warshall path lengths, dense set operations,
 //! pairwise distances) written here from the definitions.

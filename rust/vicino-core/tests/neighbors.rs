@@ -1,3 +1,5 @@
+// Dense oracles index their matrices by (i, j), as the formulas do.
+#![allow(clippy::needless_range_loop)]
 //! Neighbour search against brute force: k nearest and within a distance,
 //! Euclidean and great circle, with ties (integer grids, duplicated points)
 //! and the error cases.
@@ -271,7 +273,7 @@ fn knn_euclidean_duplicated_points() {
 #[test]
 fn knn_euclidean_many_copies_of_one_point() {
     // 300 copies of the origin, then a small grid around it
-    let mut xy: Vec<f64> = std::iter::repeat([0.0, 0.0]).take(300).flatten().collect();
+    let mut xy: Vec<f64> = std::iter::repeat_n([0.0, 0.0], 300).flatten().collect();
     xy.extend(grid(5, 5).iter().map(|v| v - 2.0));
     for k in [1usize, 5, 299, 300, 301, 310] {
         check_knn(&xy, k, Metric::Euclidean, 0.0, &format!("copies k={k}"));

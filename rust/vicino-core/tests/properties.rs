@@ -1,3 +1,5 @@
+// Dense oracles index their matrices by (i, j), as the formulas do.
+#![allow(clippy::needless_range_loop)]
 //! Property tests: neighbour graphs, standardization, spatial lag, spectral
 //! radius and Moran's I, each against a dense brute-force oracle, a published
 //! formula or an exact identity.
@@ -176,7 +178,7 @@ fn all_permutations(n: usize) -> Vec<Vec<usize>> {
         }
         for i in 0..k {
             heap(k - 1, v, out);
-            if k % 2 == 0 {
+            if k.is_multiple_of(2) {
                 v.swap(i, k - 1);
             } else {
                 v.swap(0, k - 1);

@@ -6,6 +6,9 @@ use numpy::{IntoPyArray, PyArray1, PyReadonlyArray1};
 use pyo3::prelude::*;
 use vicino_core::stats::{global, Alternative};
 
+/// (extreme count, p-value, mean, std, z, draws) of a permutation test.
+type PermutationSummary = (usize, f64, f64, f64, f64, Py<PyArray1<f64>>);
+
 /// Global Moran's I, its moments and, with permutations, their summary.
 #[pyclass(frozen, get_all, module = "vicino._core")]
 pub struct MoranOut {
@@ -20,8 +23,8 @@ pub struct MoranOut {
     normality_z: f64,
     randomization_variance: f64,
     randomization_z: f64,
-    /// (extreme count, p-value, mean, std, z, draws) when permutations > 0
-    permutation: Option<(usize, f64, f64, f64, f64, Py<PyArray1<f64>>)>,
+    /// when permutations > 0
+    permutation: Option<PermutationSummary>,
 }
 
 /// Global Moran's I.

@@ -26,7 +26,7 @@ impl<'a> Polygons<'a> {
     /// Check and borrow the buffers. Errors name the unit at fault.
     pub fn new(coords: &'a [f64], rings: &'a [i64], polys: &'a [i64], units: &'a [i64]) -> Result<Self> {
         let bad = |reason: &str| Error::InvalidMatrix { reason: format!("polygon buffers: {reason}") };
-        if coords.len() % 2 != 0 {
+        if !coords.len().is_multiple_of(2) {
             return Err(Error::OddCoordinates { len: coords.len() });
         }
         let (xy, _) = coords.as_chunks::<2>();

@@ -33,7 +33,7 @@ impl Metric {
 
     /// Check coordinates given as interleaved pairs (x0, y0, x1, y1, ...).
     pub fn check(self, xy: &[f64]) -> Result<usize> {
-        if xy.len() % 2 != 0 {
+        if !xy.len().is_multiple_of(2) {
             return Err(Error::OddCoordinates { len: xy.len() });
         }
         let n = xy.len() / 2;

@@ -1,3 +1,5 @@
+// Dense oracles index their matrices by (i, j), as the formulas do.
+#![allow(clippy::needless_range_loop)]
 //! Helpers shared by the integration tests.
 
 use vicino_core::CsrRef;

@@ -38,7 +38,10 @@ def make_ids(ids: Any, n: int, default: pd.Index | None = None) -> pd.Index:
         source = "ids"
     if len(index) != n:
         raise IdError(f"{source} has {len(index)} entries but there are {n} units; give one id per unit")
-    missing = np.asarray(index.isna())
+    if isinstance(index, pd.MultiIndex):
+        missing = np.asarray(index.to_frame().isna().any(axis=1))
+    else:
+        missing = np.asarray(index.isna())
     if missing.any():
         raise IdError(
             f"{source} holds {int(missing.sum())} missing id(s) (NaN / None / NA) at positions "

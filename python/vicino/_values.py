@@ -88,16 +88,7 @@ def as_values(values: Any, ids: pd.Index, *, allow_2d: bool) -> tuple[np.ndarray
         raise InvalidValuesError(f"values have {arr.shape[0]} rows but the weights have {len(ids)} units")
     if arr.ndim == 2 and arr.shape[1] == 0:
         raise InvalidValuesError("values have no columns; give at least one variable")
-    finite = np.asarray(np.isfinite(arr) if arr.ndim == 1 else np.isfinite(arr).all(axis=1))
-    if not finite.all():
-        where = np.flatnonzero(~finite)
-        raise InvalidValuesError(
-            f"{len(where)} unit(s) have NaN or infinite values, ids {examples(ids[where])}; "
-            "drop or impute them (and subset the weights) first",
-            count=len(where),
-            positions=where[:10].tolist(),
-            ids=list(ids[where[:10]]),
-        )
+    # NaN and infinite values are refused by the core, which names the units (one pass, in parallel)
     return arr, wrap
 
 

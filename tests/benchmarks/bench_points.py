@@ -9,6 +9,7 @@ Steps, each on the same data for both routes:
 * k_nearest (k = 8): scipy.spatial.cKDTree(workers=-1) query of k + 1
   neighbours plus building the scipy.sparse.csr_array, vs vicino.k_nearest.
 * lag: scipy csr_array @ x vs Weights.lag(x), row-standardized k = 8.
+* lag 4 columns: scipy csr_array @ X vs Weights.lag(X) for an (n, 4) array.
 * moran: 999 permutations; a numpy loop that permutes the values and
   recomputes I with the scipy matrix, vs vicino.moran (which also computes
   the analytic moments).
@@ -50,6 +51,9 @@ CHILD = textwrap.dedent(
     elif step == "lag":
         w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy(); x = rng.random(n)
         routes = (lambda: m @ x, lambda: w.lag(x))
+    elif step == "lag4":
+        w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy(); x = rng.random((n, 4))
+        routes = (lambda: m @ x, lambda: w.lag(x))
     elif step == "moran":
         w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy()
         x = pts[:, 0] + rng.normal(0, 0.5, n)
@@ -82,7 +86,13 @@ CHILD = textwrap.dedent(
     """
 )
 
-LABEL = {"knn": "k_nearest", "lag": "lag", "moran": "moran 999 perm", "spectral": "spectral radius"}
+LABEL = {
+    "knn": "k_nearest",
+    "lag": "lag",
+    "lag4": "lag 4 columns",
+    "moran": "moran 999 perm",
+    "spectral": "spectral radius",
+}
 
 
 def child(mode: str, step: str, n: int, k: int, reps: int):
@@ -98,14 +108,18 @@ def main() -> None:
     ap.add_argument("--moran-sizes", type=int, nargs="+", default=[10_000, 100_000])
     ap.add_argument("--reps", type=int, default=3, help="runs of the slow steps (fast ones run 10x as often)")
     ap.add_argument("--k", type=int, default=8)
+    ap.add_argument("--steps", nargs="+", default=["knn", "lag", "lag4", "spectral", "moran"], help="steps to run")
     args = ap.parse_args()
-    plan = [(s, n) for n in args.sizes for s in ("knn", "lag", "spectral")] + [("moran", n) for n in args.moran_sizes]
+    plan = [(s, n) for n in args.sizes for s in ("knn", "lag", "lag4", "spectral")] + [
+        ("moran", n) for n in args.moran_sizes
+    ]
+    plan = [(s, n) for s, n in plan if s in args.steps]
     print(
         f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}",
         flush=True,
     )
     for step, n in plan:
-        reps = args.reps * 10 if step == "lag" else (1 if step == "moran" and n >= 100_000 else args.reps)
+        reps = args.reps * 10 if step in ("lag", "lag4") else (1 if step == "moran" and n >= 100_000 else args.reps)
         tb, tv = child("time", step, n, args.k, reps)
         mb, mv = child("mem0", step, n, args.k, 1), child("mem1", step, n, args.k, 1)
         print(

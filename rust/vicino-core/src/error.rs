@@ -216,7 +216,10 @@ pub enum Error {
     NoWeight { what: &'static str },
     #[error("{what} has length {got} but the weights have {expected} units")]
     LengthMismatch { what: &'static str, expected: usize, got: usize },
-    #[error("{} value(s) are NaN or infinite, {units}; drop or impute them first", units.count)]
+    #[error(
+        "{} unit(s) have NaN or infinite values, {units}; drop or impute them (and subset the weights) first",
+        units.count
+    )]
     NonFiniteValues { units: Units },
     #[error("the values are constant (zero variance): spatial autocorrelation is undefined")]
     ConstantValues,

@@ -10,6 +10,7 @@
 //! [`pow2_exponent`] (weights and values), computes there, and scales back.
 //! O(n) when rescaling is needed, O(1) otherwise.
 
+use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result, Unit};
 use rayon::prelude::*;
 use std::borrow::Cow;
@@ -121,6 +122,22 @@ impl Frame {
             d.par_iter_mut().with_min_len(1 << 14).for_each(|v| *v = self.to_world(*v));
         }
     }
+}
+
+/// The data of `w` divided by 2^e, a power of two near the largest weight,
+/// when the weights are far from 1 (exact), so that the weight sums cannot
+/// overflow; statistics are invariant to the scale of W. Returns the
+/// rescaled matrix (None when not needed) and e (0 when not needed).
+pub fn moderate(w: CsrRef<'_>) -> (Option<Csr>, i32) {
+    let top = w.data().iter().copied().fold(0.0f64, f64::max);
+    if !(top > 0.0) {
+        return (None, 0);
+    }
+    let e = pow2_exponent(top);
+    if e.abs() <= 128 {
+        return (None, 0);
+    }
+    (Some(w.with_data(w.data().iter().map(|&v| times_pow2(v, -e)).collect())), e)
 }
 
 #[cfg(test)]

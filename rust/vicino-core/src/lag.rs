@@ -35,8 +35,8 @@ pub fn lag(w: CsrRef<'_>, x: &[f64], m: usize) -> Result<Vec<f64>> {
         let units = Units::find(n, |i| x[i * m..(i + 1) * m].iter().any(|v| !v.is_finite()));
         return Err(Error::NonFiniteValues { units });
     }
-    let out = lag_unchecked(w, x, m);
-    if !finite(&out) {
+    let (out, all_finite) = lag_checked(w, x, m);
+    if !all_finite {
         let units = Units::find(n, |i| out[i * m..(i + 1) * m].iter().any(|v| !v.is_finite()));
         return Err(Error::Overflow {
             what: "the spatial lag",
@@ -47,10 +47,12 @@ pub fn lag(w: CsrRef<'_>, x: &[f64], m: usize) -> Result<Vec<f64>> {
     Ok(out)
 }
 
-/// Rows `first..` of W X into `out` (whole rows of m values).
-fn lag_rows(w: CsrRef<'_>, x: &[f64], m: usize, first: usize, out: &mut [f64]) {
+/// Rows `first..` of W X into `out` (whole rows of m values); whether all
+/// of them are finite (a lag of finite values can still overflow).
+fn lag_rows(w: CsrRef<'_>, x: &[f64], m: usize, first: usize, out: &mut [f64]) -> bool {
     let (indptr, indices, data) = (w.indptr(), w.indices(), w.data());
     let n = w.n();
+    let mut finite = true;
     for (o, slot) in out.chunks_exact_mut(m).enumerate() {
         let i = first + o;
         if i + AHEAD < n {
@@ -63,6 +65,7 @@ fn lag_rows(w: CsrRef<'_>, x: &[f64], m: usize, first: usize, out: &mut [f64]) {
         if m == 1 {
             // fold from +0.0: `sum` of an empty row would give -0.0
             slot[0] = indices[a..b].iter().zip(&data[a..b]).fold(0.0, |acc, (&j, &v)| acc + v * x[j as usize]);
+            finite &= slot[0].is_finite();
         } else {
             slot.fill(0.0);
             for (&j, &v) in indices[a..b].iter().zip(&data[a..b]) {
@@ -71,19 +74,29 @@ fn lag_rows(w: CsrRef<'_>, x: &[f64], m: usize, first: usize, out: &mut [f64]) {
                     *s += v * xv;
                 }
             }
+            finite &= slot.iter().all(|v| v.is_finite());
         }
     }
+    finite
+}
+
+/// W X (x holds n rows of m finite values), and whether every output value is finite.
+fn lag_checked(w: CsrRef<'_>, x: &[f64], m: usize) -> (Vec<f64>, bool) {
+    let mut out = vec![0.0; w.n() * m];
+    let finite = if w.nnz() * m >= PARALLEL_MIN_NNZ {
+        out.par_chunks_mut(CHUNK * m)
+            .enumerate()
+            .map(|(b, chunk)| lag_rows(w, x, m, b * CHUNK, chunk))
+            .reduce(|| true, |a, b| a && b)
+    } else {
+        lag_rows(w, x, m, 0, &mut out)
+    };
+    (out, finite)
 }
 
 /// W X without checks (x holds n rows of m finite values).
 pub fn lag_unchecked(w: CsrRef<'_>, x: &[f64], m: usize) -> Vec<f64> {
-    let mut out = vec![0.0; w.n() * m];
-    if w.nnz() * m >= PARALLEL_MIN_NNZ {
-        out.par_chunks_mut(CHUNK * m).enumerate().for_each(|(b, chunk)| lag_rows(w, x, m, b * CHUNK, chunk));
-    } else {
-        lag_rows(w, x, m, 0, &mut out);
-    }
-    out
+    lag_checked(w, x, m).0
 }
 
 #[cfg(test)]

@@ -27,7 +27,7 @@
 
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
-use crate::frame::{pow2_exponent, times_pow2};
+use crate::frame::{moderate, times_pow2};
 use crate::guard::Guard;
 use crate::lag::lag_unchecked;
 
@@ -363,9 +363,7 @@ pub fn spectral_radius(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
     if !(top > 0.0) {
         return Err(Error::NoWeight { what: "the largest eigenvalue" });
     }
-    let e = pow2_exponent(top);
-    if e.abs() > 128 {
-        let scaled = w.with_data(w.data().iter().map(|&v| times_pow2(v, -e)).collect());
+    if let (Some(scaled), e) = moderate(w) {
         let r = spectral_radius(scaled.view(), guard)?;
         return Ok(SpectralRadius { value: times_pow2(r.value, e), ..r });
     }

@@ -17,7 +17,7 @@
 
 use crate::csr::CsrRef;
 use crate::error::{Error, Link, Result, Units};
-use crate::frame::{pow2_exponent, times_pow2};
+use crate::frame::{moderate, pow2_exponent, times_pow2};
 use crate::guard::Guard;
 use crate::spectral::spectral_radius;
 
@@ -114,6 +114,10 @@ pub fn standardize(w: CsrRef<'_>, method: Method, islands: Islands, guard: &Guar
         }
         Method::MaxEigenvalue => {
             need_weight("max_eigenvalue standardization")?;
+            // divide in the moderated frame: rho itself could be subnormal or overflow
+            let (moderated, _) = moderate(w);
+            let w = moderated.as_ref().map_or(w, |m| m.view());
+            let data = w.data();
             let rho = spectral_radius(w, guard)?.value;
             if !(rho > 0.0) {
                 return Err(Error::NoWeight {

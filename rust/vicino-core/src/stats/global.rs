@@ -21,7 +21,7 @@ use super::permutation::{shuffle, stream};
 use super::Alternative;
 use crate::csr::CsrRef;
 use crate::error::{Error, Result, Units};
-use crate::frame::{pow2_exponent, times_pow2};
+use crate::frame::{moderate, pow2_exponent, times_pow2};
 use crate::guard::Guard;
 use rayon::prelude::*;
 
@@ -92,22 +92,6 @@ pub fn centred(w: CsrRef<'_>, x: &[f64]) -> Result<Vec<f64>> {
     let f = -pow2_exponent(top);
     z.iter_mut().for_each(|v| *v = times_pow2(*v, f));
     Ok(z)
-}
-
-/// The data of `w` divided by 2^e, a power of two near the largest weight,
-/// when the weights are far from 1 (exact), so that the weight sums cannot
-/// overflow; statistics are invariant to the scale of W. Returns the
-/// rescaled matrix (None when not needed) and e (0 when not needed).
-pub fn moderate(w: CsrRef<'_>) -> (Option<crate::csr::Csr>, i32) {
-    let top = w.data().iter().copied().fold(0.0f64, f64::max);
-    if !(top > 0.0) {
-        return (None, 0);
-    }
-    let e = pow2_exponent(top);
-    if e.abs() <= 128 {
-        return (None, 0);
-    }
-    (Some(w.with_data(w.data().iter().map(|&v| times_pow2(v, -e)).collect())), e)
 }
 
 /// Counts of draws at least as extreme as `observed`, and the permutation p.

@@ -10,8 +10,8 @@
 //! A link is a stored entry, and every stored weight is positive and finite;
 //! a unit without a link to another unit is an island (a self-link alone
 //! does not make a neighbour). Every matrix of the crate is built by
-//! [`build_rows`], and every walk over two sorted rows at once is
-//! [`merge_rows`].
+//! [`build_rows`] (or its fixed-width form, [`build_fixed_rows`]), and every
+//! walk over two sorted rows at once is [`merge_rows`].
 
 use crate::error::{Error, Link, Result};
 use rayon::prelude::*;
@@ -137,6 +137,67 @@ where
     } else {
         pieces.into_iter().for_each(fill);
     }
+    Ok((indptr, indices, data))
+}
+
+/// The fixed-width form of [`build_rows`], for rows of exactly `width`
+/// entries (the k nearest neighbours): each row is written straight into
+/// its place in the output, so the output is never held twice. Rows are
+/// produced in the order `visit` (a permutation of the rows), in blocks, in
+/// parallel when `parallel`; `row` must append exactly `width` entries,
+/// sorted by column.
+pub fn build_fixed_rows<T, S, F>(
+    n: usize,
+    width: usize,
+    visit: &[usize],
+    parallel: bool,
+    init: impl Fn() -> S + Sync,
+    row: F,
+) -> Result<Parts<T>>
+where
+    T: Copy + Default + Send + Sync,
+    S: Send,
+    F: Fn(&mut S, usize, &mut Vec<i64>, &mut Vec<T>) -> Result<()> + Sync,
+{
+    debug_assert_eq!(visit.len(), n);
+    let mut indices = vec![0i64; n * width];
+    let mut data = vec![T::default(); n * width];
+    {
+        // one (columns, values) slot per row, handed out in visiting order
+        let mut slots: Vec<Option<(&mut [i64], &mut [T])>> = if width == 0 {
+            (0..n).map(|_| Some((&mut [][..], &mut [][..]))).collect()
+        } else {
+            indices.chunks_exact_mut(width).zip(data.chunks_exact_mut(width)).map(Some).collect()
+        };
+        let mut blocks: Vec<Vec<(usize, (&mut [i64], &mut [T]))>> = Vec::with_capacity(n.div_ceil(BUILD_BLOCK));
+        for chunk in visit.chunks(BUILD_BLOCK) {
+            blocks.push(chunk.iter().map(|&i| (i, slots[i].take().expect("visit is a permutation"))).collect());
+        }
+        let fill = |state: &mut (S, Vec<i64>, Vec<T>), block: Vec<(usize, (&mut [i64], &mut [T]))>| -> Result<()> {
+            let (st, cols, vals) = state;
+            for (i, (c, v)) in block {
+                cols.clear();
+                vals.clear();
+                row(st, i, cols, vals)?;
+                if cols.len() != width || vals.len() != width {
+                    return Err(Error::InvalidMatrix {
+                        reason: format!("row {i} has {} entries, not {width}", cols.len()),
+                    });
+                }
+                c.copy_from_slice(cols);
+                v.copy_from_slice(vals);
+            }
+            Ok(())
+        };
+        let init = || (init(), Vec::with_capacity(width), Vec::with_capacity(width));
+        if parallel {
+            blocks.into_par_iter().map_init(init, fill).collect::<Result<()>>()?;
+        } else {
+            let mut state = init();
+            blocks.into_iter().try_for_each(|b| fill(&mut state, b))?;
+        }
+    }
+    let indptr = (0..=n as i64).map(|i| i * width as i64).collect();
     Ok((indptr, indices, data))
 }
 
@@ -516,6 +577,29 @@ mod tests {
         ));
         assert!(matches!(Csr::new(2, vec![0, 1, 1], vec![1], vec![f64::NAN]), Err(Error::NonFiniteWeight { .. })));
         assert!(Csr::new(2, vec![0, 1, 2], vec![1, 0], vec![1.0, 2.0]).is_ok());
+    }
+
+    #[test]
+    fn rows_built_in_any_order_land_in_row_order() {
+        // rows of a fixed pattern, visited in a scrambled order and in row order
+        let n = 5000;
+        let row = |_: &mut (), i: usize, cols: &mut Vec<i64>, vals: &mut Vec<f64>| {
+            let mut mine: Vec<i64> = [1, 7, 13].iter().map(|d| ((i + d) % n) as i64).collect();
+            mine.sort_unstable();
+            vals.extend(mine.iter().map(|&c| (c + i as i64) as f64));
+            cols.extend(mine);
+            Ok(())
+        };
+        let visit: Vec<usize> = (0..n).map(|k| (k * 7919) % n).collect();
+        let plain = build_rows(n, None, false, || (), row).unwrap();
+        let scrambled = build_rows(n, Some(&visit), true, || (), row).unwrap();
+        let fixed = build_fixed_rows(n, 3, &visit, true, || (), row).unwrap();
+        assert_eq!(plain, scrambled);
+        assert_eq!(plain, fixed);
+        // by hand: row 0 links 1, 7 and 13
+        assert_eq!(&plain.1[..3], &[1, 7, 13]);
+        let short = build_fixed_rows(n, 4, &visit, false, || (), row);
+        assert!(matches!(short, Err(Error::InvalidMatrix { .. })));
     }
 
     #[test]

@@ -17,7 +17,7 @@
 
 pub mod metric;
 
-use crate::csr::{build_rows, Csr};
+use crate::csr::{build_fixed_rows, build_rows, Csr};
 use crate::error::{Error, Result};
 use crate::frame::Frame;
 use crate::guard::Guard;
@@ -315,7 +315,7 @@ pub fn k_nearest(xy: &[f64], k: usize, metric: Metric, guard: &Guard) -> Result<
     guard.reserve(n as f64 * k as f64 * LINK_BYTES, "the k nearest neighbours of every unit", "use a smaller k")?;
     let layout = Layout::new(as_pairs(&p.xy));
     let parts = with_space(&p, |space| {
-        build_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, i, cols, dists| {
+        build_fixed_rows(n, k, &layout.order, n >= 512, Vec::new, |buf, i, cols, dists| {
             guard.check()?;
             let same = layout.same_place(i);
             if same.len() > k {

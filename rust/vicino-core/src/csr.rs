@@ -140,6 +140,9 @@ where
     Ok((indptr, indices, data))
 }
 
+/// A row and the output slices it fills: (row, (columns, values)).
+type RowSlot<'a, T> = (usize, (&'a mut [i64], &'a mut [T]));
+
 /// The fixed-width form of [`build_rows`], for rows of exactly `width`
 /// entries (the k nearest neighbours): each row is written straight into
 /// its place in the output, so the output is never held twice. Rows are
@@ -169,11 +172,11 @@ where
         } else {
             indices.chunks_exact_mut(width).zip(data.chunks_exact_mut(width)).map(Some).collect()
         };
-        let mut blocks: Vec<Vec<(usize, (&mut [i64], &mut [T]))>> = Vec::with_capacity(n.div_ceil(BUILD_BLOCK));
+        let mut blocks: Vec<Vec<RowSlot<'_, T>>> = Vec::with_capacity(n.div_ceil(BUILD_BLOCK));
         for chunk in visit.chunks(BUILD_BLOCK) {
             blocks.push(chunk.iter().map(|&i| (i, slots[i].take().expect("visit is a permutation"))).collect());
         }
-        let fill = |state: &mut (S, Vec<i64>, Vec<T>), block: Vec<(usize, (&mut [i64], &mut [T]))>| -> Result<()> {
+        let fill = |state: &mut (S, Vec<i64>, Vec<T>), block: Vec<RowSlot<'_, T>>| -> Result<()> {
             let (st, cols, vals) = state;
             for (i, (c, v)) in block {
                 cols.clear();

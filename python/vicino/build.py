@@ -20,7 +20,7 @@ from .errors import (
     InvalidTypeError,
 )
 from .geometry import as_points, as_polygons
-from .weights import Step, Weights
+from .weights import Step, Weights, built
 
 Metric = Literal["euclidean", "great_circle"]
 METRICS = ("euclidean", "great_circle")
@@ -39,7 +39,7 @@ def _from_search(result: tuple[core.Csr, int], ids: pd.Index, step: Step) -> Wei
             stacklevel=3,
         )
     ones = np.ones(len(indices))
-    return Weights._make((indptr, indices, ones), ids, (step,), links={"distance": distances}, duplicates=duplicates)
+    return built((indptr, indices, ones), ids, (step,), links={"distance": distances}, duplicates=duplicates)
 
 
 def k_nearest(points: Any, k: int, *, metric: Metric = "euclidean", ids: Any = None, columns: Any = None) -> Weights:
@@ -179,7 +179,7 @@ def from_matrix(matrix: Any, *, ids: Any = None, network: bool = False) -> Weigh
     units = make_ids(ids, n, index)
     indptr, indices, data = core.validate(n, m.indptr, m.indices, m.data, units)
     params: dict[str, Any] = {"n": n, "network": True} if network else {"n": n}
-    return Weights._make((indptr, indices, data), units, (Step("from_matrix", params),))
+    return built((indptr, indices, data), units, (Step("from_matrix", params),))
 
 
 def _warn_empty(empty: np.ndarray, ids: pd.Index) -> None:
@@ -248,7 +248,7 @@ def contiguity(
     params: dict[str, Any] = {"rule": rule, "tolerance": tolerance}
     if weight != "binary":
         params["weight"] = weight
-    return Weights._make(
+    return built(
         (indptr, indices, data),
         units,
         (Step("contiguity", params),),
@@ -292,4 +292,4 @@ def cliff_ord(
         "cliff_ord",
         {"border_power": a, "distance_power": b, "metric": metric, "tolerance": tolerance, "symmetric": False},
     )
-    return Weights._make((indptr, indices, data), units, (step,), units={"perimeter": perimeter})
+    return built((indptr, indices, data), units, (step,), units={"perimeter": perimeter})

@@ -657,6 +657,19 @@ def _restore(indptr, indices, data, ids, recipe, links, units, duplicates) -> We
 
 
 # ---- the internal interface other modules use -------------------------------------
+def built(
+    csr: tuple[Any, Any, Any],
+    ids: pd.Index,
+    recipe: Iterable[Step],
+    *,
+    links: Mapping[str, Any] | None = None,
+    units: Mapping[str, Any] | None = None,
+    duplicates: int | None = 0,
+) -> Weights:
+    """Weights from buffers the core made (canonical, read-only), for the builders: no checks, no copies."""
+    return Weights._make(csr, ids, recipe, links=links, units=units, duplicates=duplicates)
+
+
 def core_matrix(w: Weights) -> core.CoreMatrix:
     """(n, indptr, indices, data) of ``w``, as the core takes a matrix."""
     return w._core()

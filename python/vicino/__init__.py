@@ -15,6 +15,8 @@ from .build import EARTH_RADIUS_KM, cliff_ord, contiguity, from_matrix, k_neares
 from .errors import (
     ConvergenceError,
     DuplicateLocationWarning,
+    FileAccessError,
+    FileFormatError,
     IdError,
     InternalError,
     InvalidInputError,
@@ -27,6 +29,7 @@ from .errors import (
     TooLargeError,
     VicinoError,
 )
+from .io import read
 from .stats import AnalyticInference, MoranResult, PermutationInference, moran
 from .weights import Step, Weights
 
@@ -42,6 +45,8 @@ __all__ = [
     "Components",
     "ConvergenceError",
     "DuplicateLocationWarning",
+    "FileAccessError",
+    "FileFormatError",
     "Finding",
     "IdError",
     "InternalError",
@@ -64,6 +69,7 @@ __all__ = [
     "get_memory_limit",
     "k_nearest",
     "moran",
+    "read",
     "set_memory_limit",
     "within_distance",
 ]

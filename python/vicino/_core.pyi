@@ -19,6 +19,7 @@ __all__ = [
     "connect_components",
     "connect_islands",
     "contiguity",
+    "from_edges",
     "get_memory_limit",
     "health",
     "k_nearest",
@@ -27,6 +28,8 @@ __all__ = [
     "moran",
     "neighbour_counts",
     "order",
+    "read_matrix_market",
+    "read_triplet",
     "select",
     "set_memory_limit",
     "spectral_radius",
@@ -35,6 +38,8 @@ __all__ = [
     "undirected_pairs",
     "validate",
     "within_distance",
+    "write_matrix_market",
+    "write_triplet",
 ]
 
 EARTH_RADIUS_KM: float
@@ -123,3 +128,16 @@ def symmetrize(w: _W, how: _Symmetrize) -> _Csr: ...
 def select(w: _W, keep: _I) -> tuple[_Csr, _I]: ...
 def connect_islands(w: _W, xy: _F, metric: _Metric, k: int, weight: float) -> tuple[_Csr, _I, _Links]: ...
 def connect_components(w: _W, xy: _F, metric: _Metric, weight: float) -> tuple[_Csr, _I, _Links]: ...
+
+_DuplicatesPolicy = Literal["sum", "mean", "max", "error"]
+_SelfLoopsPolicy = Literal["keep", "drop", "error"]
+# (n, (indptr, indices, data), vicino record or None, stored as symmetric, pattern)
+_File = tuple[int, _Csr, str | None, bool, bool]
+
+def from_edges(
+    n: int, source: _I, target: _I, weight: _F, duplicates: _DuplicatesPolicy, self_loops: _SelfLoopsPolicy
+) -> tuple[_Csr, _I, int, int]: ...
+def read_matrix_market(path: str) -> _File: ...
+def write_matrix_market(path: str, w: _W, record: str) -> bool: ...
+def read_triplet(path: str) -> _File: ...
+def write_triplet(path: str, w: _W, record: str) -> None: ...

@@ -69,11 +69,11 @@ def _owned_csr(csr: Csr) -> Csr:
     return owned(csr[0]), owned(csr[1]), owned(csr[2])
 
 
-def _run(fn: Callable[..., R], ids: pd.Index | None, *args: Any) -> R:
+def _run(fn: Callable[..., R], ids: pd.Index | None, *args: Any, edge_name: Callable[[int], str] | None = None) -> R:
     try:
         return fn(*args)
     except VicinoError as err:
-        raise render(err, ids) from None
+        raise render(err, ids, edge_name) from None
 
 
 # ---- memory budget ----------------------------------------------------------
@@ -131,6 +131,54 @@ def centroids(polygons: Polygons, ids: pd.Index | None) -> Floats:
 def _frozen_polygons(polygons: Polygons) -> Polygons:
     kind, values, offsets = polygons
     return kind, frozen(values, np.uint8 if kind == "wkb" else np.float64), frozen(offsets, np.int64)
+
+
+def from_edges(
+    n: int,
+    source: np.ndarray,
+    target: np.ndarray,
+    weight: np.ndarray,
+    duplicates: str,
+    self_loops: str,
+    ids: pd.Index,
+    edge_name: Callable[[int], str] | None = None,
+) -> tuple[Csr, Ints, int, int]:
+    """Weights from edges: (csr, first edge of each entry, self-loops dropped, duplicates merged)."""
+    csr, first, dropped, merged = _run(
+        _core.from_edges,
+        ids,
+        n,
+        frozen(source, np.int64),
+        frozen(target, np.int64),
+        frozen(weight),
+        duplicates,
+        self_loops,
+        edge_name=edge_name,
+    )
+    return _owned_csr(csr), owned(first), dropped, merged
+
+
+# ---- files --------------------------------------------------------------------------
+def read_matrix_market(path: str) -> tuple[int, Csr, str | None, bool, bool]:
+    """(n, csr, vicino record, stored as symmetric, pattern) of a Matrix Market file."""
+    n, csr, record, symmetric, pattern = _run(_core.read_matrix_market, None, path)
+    return n, _owned_csr(csr), record, symmetric, pattern
+
+
+def write_matrix_market(path: str, w: CoreMatrix, record: str, ids: pd.Index) -> bool:
+    """Write a Matrix Market file; whether it was stored as symmetric."""
+    return _run(_core.write_matrix_market, ids, path, w, record)
+
+
+def read_triplet(path: str) -> tuple[int, Csr, str | None, bool, bool]:
+    """(n, csr, vicino record, False, False) of a triplet file."""
+    n, csr, record, symmetric, pattern = _run(_core.read_triplet, None, path)
+    return n, _owned_csr(csr), record, symmetric, pattern  # a triplet file is never stored as symmetric
+
+
+def write_triplet(path: str, w: CoreMatrix, record: str, ids: pd.Index) -> None:
+    """Write a triplet file with the closing ``n n 0`` line."""
+    _run(_core.write_triplet, ids, path, w, record)
 
 
 # ---- using weights -------------------------------------------------------------

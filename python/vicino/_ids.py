@@ -6,7 +6,7 @@ This is the one place where positions become ids.
 
 from __future__ import annotations
 
-from collections.abc import Hashable, Sequence
+from collections.abc import Callable, Hashable, Sequence
 from typing import Any
 
 import numpy as np
@@ -87,8 +87,12 @@ def is_unit_key(key: Any) -> bool:
     return isinstance(key, Hashable)
 
 
-def _phrase(kind: str, positions: Sequence[int], count: int, ids: pd.Index | None) -> str:
-    """How a message names units: by id when the ids are known, else by position."""
+def _phrase(
+    kind: str, positions: Sequence[int], count: int, ids: pd.Index | None, edge_name: Callable[[int], str] | None
+) -> str:
+    """How a message names units (by id when the ids are known, else by position) and edges."""
+    if kind == "edge":
+        return edge_name(positions[0]) if edge_name is not None else f"edge {positions[0]}"
     known = ids is not None and all(0 <= p < len(ids) for p in positions)
     if known:
         assert ids is not None
@@ -107,12 +111,14 @@ def _phrase(kind: str, positions: Sequence[int], count: int, ids: pd.Index | Non
     return ("ids " if known else "positions ") + ", ".join(names) + more
 
 
-def render(err: VicinoError, ids: pd.Index | None) -> VicinoError:
+def render(err: VicinoError, ids: pd.Index | None, edge_name: Callable[[int], str] | None = None) -> VicinoError:
     """The error with its message's markers replaced by unit names (ids when known).
 
     Errors raised by the core carry a template and, in ``_named``, what each
     marker stands for: (kind, positions, count). The result carries the named
-    positions in ``positions`` and the matching ids in ``ids``.
+    positions in ``positions`` and the matching ids in ``ids``; edges (of an
+    edge list) are named by ``edge_name`` (a table row, a file line) and
+    listed in ``edges``.
     """
     named = getattr(err, "_named", None)
     if not named:
@@ -122,11 +128,12 @@ def render(err: VicinoError, ids: pd.Index | None) -> VicinoError:
     for k, piece in enumerate(parts):
         if k % 2:
             kind, where, count = named[int(piece)]
-            pieces.append(_phrase(kind, where, count, ids))
+            pieces.append(_phrase(kind, where, count, ids, edge_name))
         else:
             pieces.append(piece)
     text = "".join(pieces)
-    positions = [p for _, where, _ in named for p in where]
+    positions = [p for kind, where, _ in named if kind != "edge" for p in where]
+    edges = [where[0] for kind, where, _ in named if kind == "edge"]
     count = max((c for kind, _, c in named if kind == "units"), default=len(set(positions)))
     out = type(err)(
         text,
@@ -134,4 +141,5 @@ def render(err: VicinoError, ids: pd.Index | None) -> VicinoError:
         positions=positions,
         ids=[ids[p] for p in positions] if ids is not None and all(p < len(ids) for p in positions) else (),
     )
+    out.edges = edges
     return out

@@ -310,17 +310,17 @@ def _added_pairs(before, after, step: str) -> pd.DataFrame:
     """The pairs of districts that a repair step linked, each pair once (a district outside the
     largest group first), with the distance between their centroids (as the repair found it)."""
     edges = (after - before).to_edges()  # the links of `after` that `before` lacks
-    edges = edges.merge(after.to_edges()[["focal", "neighbor", "distance"]], on=["focal", "neighbor"])
+    edges = edges.merge(after.to_edges()[["source", "target", "distance"]], on=["source", "target"])
     outside = before.audit().components.labels.ne(0)  # group 0 is the largest
-    ahead = outside[edges["focal"]].to_numpy(), outside[edges["neighbor"]].to_numpy()
+    ahead = outside[edges["source"]].to_numpy(), outside[edges["target"]].to_numpy()
     at = after.ids.get_indexer
-    first = at(edges["focal"]) < at(edges["neighbor"])
+    first = at(edges["source"]) < at(edges["target"])
     edges = edges[(ahead[0] & ~ahead[1]) | ((ahead[0] == ahead[1]) & first)]
     return pd.DataFrame(
         {
             "step": step,
-            "district": edges["focal"].to_numpy(),
-            "linked_to": edges["neighbor"].to_numpy(),
+            "district": edges["source"].to_numpy(),
+            "linked_to": edges["target"].to_numpy(),
             "distance_km": edges["distance"].to_numpy().round(1),
         }
     )

@@ -38,11 +38,14 @@ class VicinoError(Exception):
         The ids of those units, where known.
     count : int
         How many units are concerned in all (may exceed ``len(positions)``).
+    edges : list of int
+        For errors about an edge list: the positions of the edges concerned.
     """
 
     count: int
     positions: list[int]
     ids: list[Any]
+    edges: list[int]
 
     def __init__(
         self, message: str = "", *, count: int = 0, positions: Iterable[int] = (), ids: Iterable[Any] = ()
@@ -51,6 +54,7 @@ class VicinoError(Exception):
         self.count = count
         self.positions = list(positions)
         self.ids = list(ids)
+        self.edges = []
 
 
 class InvalidInputError(VicinoError, ValueError):
@@ -98,6 +102,14 @@ class TooLargeError(VicinoError, MemoryError):
     The message gives the estimate and a way to need less;
     :func:`vicino.set_memory_limit` raises the limit.
     """
+
+
+class FileFormatError(VicinoError, ValueError):
+    """A weights file that cannot be read as its format says; the message names the file and line."""
+
+
+class FileAccessError(VicinoError, OSError):
+    """A file that cannot be opened, read or written (missing, no permission, disk full)."""
 
 
 class InternalError(VicinoError, RuntimeError):

@@ -285,13 +285,13 @@ class Weights:
         return self.to_scipy().toarray()
 
     def to_edges(self) -> pd.DataFrame:
-        """One row per link: focal id, neighbour id, weight, and what the builder knew of the link.
+        """One row per link: source id, target id, weight, and what the builder knew of the link.
 
         The facts are ``distance`` for point builders and ``border_length``
         for polygon builders.
         """
         rows = np.repeat(np.arange(self.n), np.diff(self._indptr))
-        out = {"focal": self._ids.take(rows), "neighbor": self._ids.take(self._indices), "weight": self._data}
+        out = {"source": self._ids.take(rows), "target": self._ids.take(self._indices), "weight": self._data}
         out.update(self._links)
         return pd.DataFrame(out)
 
@@ -356,6 +356,29 @@ class Weights:
         """
         arr, wrap = aligned_values(self, values, allow_2d=True)
         return wrap(core.lag(self._core(), arr, self._ids))
+
+    # ---- files ---------------------------------------------------------
+    def write(self, path: Any, format: Literal["mtx", "triplet", "npz", "csv", "parquet"] | None = None) -> Any:
+        """Write the weights to a file that R, MATLAB / Octave or SciPy read, ids included.
+
+        Parameters
+        ----------
+        path : str or path-like
+            Where to write; the suffix chooses the format unless ``format``
+            is given: ``.mtx`` Matrix Market, ``.txt`` 1-based triplets for
+            ``spconvert``, ``.npz`` SciPy, ``.csv`` / ``.parquet`` edge tables.
+        format : {"mtx", "triplet", "npz", "csv", "parquet"}, optional
+            The format, when the suffix does not say it.
+
+        Returns
+        -------
+        pathlib.Path
+            The path written. Text formats also write the ids to
+            ``<path>.ids.csv``; see :mod:`vicino.io` for the layouts.
+        """
+        from .io import write
+
+        return write(self, path, format)
 
     # ---- health ------------------------------------------------------
     def audit(self) -> Audit:
@@ -673,6 +696,16 @@ def built(
 def core_matrix(w: Weights) -> core.CoreMatrix:
     """(n, indptr, indices, data) of ``w``, as the core takes a matrix."""
     return w._core()
+
+
+def link_facts(w: Weights) -> Mapping[str, np.ndarray]:
+    """What the builder knew of each link (``distance``, ``border_length``), aligned with the stored weights."""
+    return w._links
+
+
+def unit_facts(w: Weights) -> Mapping[str, np.ndarray]:
+    """What the builder knew of each unit (``perimeter``), aligned with the ids."""
+    return w._units
 
 
 def neighbour_counts(w: Weights) -> npt.NDArray[np.int64]:

@@ -121,7 +121,7 @@ def positions(w: vicino.Weights):
     """Row and column positions of every link of w, in to_edges order, and the edge table."""
     e = w.to_edges()
     pos = pd.Series(np.arange(w.n), index=w.ids)
-    return pos[e["focal"]].to_numpy(), pos[e["neighbor"]].to_numpy(), e
+    return pos[e["source"]].to_numpy(), pos[e["target"]].to_numpy(), e
 
 
 def brute_nearest(d: np.ndarray, i: int, k: int) -> list[int]:
@@ -408,7 +408,7 @@ def test_set_operations_need_equal_ids():
 
     def id_pairs(w):
         e = w.to_edges()
-        return set(zip(e["focal"], e["neighbor"]))
+        return set(zip(e["source"], e["target"]))
 
     assert id_pairs(a & aligned) == id_pairs(a) & id_pairs(other_order)  # reference: python sets of id pairs
 
@@ -932,7 +932,7 @@ def test_repair_links_carry_their_distance():
     m = np.zeros((4, 4))
     m[0, 1] = m[1, 0] = 1.0
     fixed = vicino.from_matrix(m, ids=list("abcd")).connect_islands(xy)
-    edges = fixed.to_edges().set_index(["focal", "neighbor"])["distance"]
+    edges = fixed.to_edges().set_index(["source", "target"])["distance"]
     for (i, j), d in edges.items():
         a, b = "abcd".index(i), "abcd".index(j)
         if m[a, b] > 0:

@@ -314,7 +314,7 @@ def test_great_circle_accepts_dataframe_and_uses_its_index(airports):
     expected = brute_knn(d, 4)
     edges = w_df.to_edges()
     for i, code in enumerate(airports.index):
-        neigh = edges.loc[edges["focal"] == code, "neighbor"].tolist()
+        neigh = edges.loc[edges["source"] == code, "target"].tolist()
         assert sorted(neigh) == sorted(airports.index[expected[i]].tolist())  # reference: haversine brute force
         assert set(w_df.neighbors_of(code).index) == set(airports.index[expected[i]])  # reference: haversine
     np.testing.assert_array_equal(w_df.to_scipy().indices, w_arr.to_scipy().indices)  # reference: haversine (above)
@@ -411,7 +411,7 @@ def test_great_circle_longitudes_0_to_360_equal_minus_180_to_180():
 def test_great_circle_antipodes_are_half_circumference():
     lonlat = np.array([[0.0, 0.0], [180.0, 0.0], [-45.0, 30.0], [135.0, -30.0]])
     w = vicino.k_nearest(lonlat, 3, metric="great_circle")
-    e = w.to_edges().set_index(["focal", "neighbor"])["distance"]
+    e = w.to_edges().set_index(["source", "target"])["distance"]
     half = np.pi * R1_KM  # reference: half the circumference of a sphere of radius R1
     assert e.loc[(0, 1)] == pytest.approx(half, rel=1e-12)
     assert e.loc[(2, 3)] == pytest.approx(half, rel=1e-12)

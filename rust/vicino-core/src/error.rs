@@ -32,6 +32,8 @@ pub enum Named {
     Link(usize, usize),
     /// Some of `count` units: "positions 3, 5 and 12 more".
     Units { first: Vec<usize>, count: usize },
+    /// An edge of an edge list, by its index in the input: "edge 3".
+    Edge(usize),
 }
 
 impl Named {
@@ -41,6 +43,7 @@ impl Named {
             Named::Unit(i) => vec![*i],
             Named::Pair(i, j) | Named::Link(i, j) => vec![*i, *j],
             Named::Units { first, .. } => first.clone(),
+            Named::Edge(_) => Vec::new(),
         }
     }
 }
@@ -67,6 +70,7 @@ fn write_named(f: &mut fmt::Formatter<'_>, named: Named) -> fmt::Result {
         Named::Unit(i) => write!(f, "unit at position {i}"),
         Named::Pair(i, j) => write!(f, "units at positions {i} and {j}"),
         Named::Link(i, j) => write!(f, "link from position {i} to position {j}"),
+        Named::Edge(e) => write!(f, "edge {e}"),
         Named::Units { first, count } => {
             let shown: Vec<String> = first.iter().map(|p| p.to_string()).collect();
             write!(f, "positions {}", shown.join(", "))?;
@@ -87,6 +91,9 @@ pub struct Pair(pub usize, pub usize);
 /// A link (row i, column j) named in a message.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Link(pub usize, pub usize);
+/// An edge of an edge list, by its index in the input.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Edge(pub usize);
 /// The first few of `count` units named in a message.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Units {
@@ -107,6 +114,11 @@ impl fmt::Display for Pair {
 impl fmt::Display for Link {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write_named(f, Named::Link(self.0, self.1))
+    }
+}
+impl fmt::Display for Edge {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write_named(f, Named::Edge(self.0))
     }
 }
 impl fmt::Display for Units {
@@ -278,6 +290,18 @@ pub enum Error {
         bytes_text(*needed), bytes_text(*limit as f64)
     )]
     TooLarge { what: &'static str, needed: f64, limit: u64, advice: &'static str },
+    #[error("{edge} names a unit beyond the {n} units")]
+    EdgeOutOfRange { edge: Edge, n: usize },
+    #[error("{edge} (the {link}) weighs {value}; edge weights must be finite and > 0")]
+    EdgeWeight { edge: Edge, link: Link, value: f64 },
+    #[error("{edge} links {unit} to itself; pass self_loops=\"keep\" or \"drop\"")]
+    SelfLoop { edge: Edge, unit: Unit },
+    #[error("{first} and {second} both give the {link}; pass duplicates=\"sum\", \"mean\" or \"max\" to merge them")]
+    DuplicateEdge { first: Edge, second: Edge, link: Link },
+    #[error("{path}, line {line}: {reason}")]
+    BadFile { path: String, line: u64, reason: String },
+    #[error("cannot use the file {path}: {reason}")]
+    FileAccess { path: String, reason: String },
     #[error("interrupted")]
     Interrupted,
 }

@@ -21,7 +21,7 @@ use vicino_core::error::{template, Named};
 use vicino_core::{Error, Guard};
 
 /// The exception classes of `vicino.errors` that core errors map to.
-const CLASSES: [&str; 10] = [
+const CLASSES: [&str; 12] = [
     "InvalidInputError",
     "InvalidParameterError",
     "IdError",
@@ -30,6 +30,8 @@ const CLASSES: [&str; 10] = [
     "InvalidValuesError",
     "ConvergenceError",
     "TooLargeError",
+    "FileFormatError",
+    "FileAccessError",
     "InternalError",
     "VicinoError",
 ];
@@ -65,7 +67,9 @@ fn class_name(e: &Error) -> &'static str {
         | CoordinateSpan { .. }
         | LatitudeOutOfRange { .. }
         | LongitudeOutOfRange { .. }
-        | Unlocated { .. } => "InvalidInputError",
+        | Unlocated { .. }
+        | SelfLoop { .. }
+        | DuplicateEdge { .. } => "InvalidInputError",
         InvalidK { .. }
         | InvalidRadius { .. }
         | InvalidPower { .. }
@@ -88,10 +92,14 @@ fn class_name(e: &Error) -> &'static str {
         | ZeroWeight { .. }
         | WeightOutOfRange { .. }
         | LinkExists { .. }
+        | EdgeOutOfRange { .. }
+        | EdgeWeight { .. }
         | SelfLinks { .. } => "InvalidMatrixError",
         LengthMismatch { .. } | NonFiniteValues { .. } | ConstantValues | Overflow { .. } => "InvalidValuesError",
         NotConverged { .. } => "ConvergenceError",
         TooLarge { .. } => "TooLargeError",
+        BadFile { .. } => "FileFormatError",
+        FileAccess { .. } => "FileAccessError",
         Interrupted => "VicinoError",
     }
 }
@@ -103,6 +111,7 @@ fn named_tuple<'py>(py: Python<'py>, named: &Named) -> PyResult<Bound<'py, PyTup
         Named::Pair(..) => ("pair", 2),
         Named::Link(..) => ("link", 2),
         Named::Units { count, .. } => ("units", *count),
+        Named::Edge(e) => return ("edge", vec![*e], 1).into_pyobject(py),
     };
     (kind, named.positions(), count).into_pyobject(py)
 }

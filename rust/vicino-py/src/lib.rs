@@ -4,8 +4,10 @@
 
 mod contiguity;
 mod convert;
+mod edges;
 mod errors;
 mod graph;
+mod io;
 mod neighbors;
 mod stats;
 mod weights;
@@ -57,6 +59,11 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
         wrap_pyfunction!(contiguity::centroids, m)?,
         wrap_pyfunction!(graph::undirected_pairs, m)?,
         wrap_pyfunction!(weights::neighbour_counts, m)?,
+        wrap_pyfunction!(edges::from_edges, m)?,
+        wrap_pyfunction!(io::read_matrix_market, m)?,
+        wrap_pyfunction!(io::write_matrix_market, m)?,
+        wrap_pyfunction!(io::read_triplet, m)?,
+        wrap_pyfunction!(io::write_triplet, m)?,
         wrap_pyfunction!(get_memory_limit, m)?,
         wrap_pyfunction!(set_memory_limit, m)?,
     ] {

@@ -191,7 +191,7 @@ def test_tiny_coordinates_give_the_same_neighbours_and_scaled_distances():
     d = brute_euclidean(xy)
     e = w.to_edges()
     pos = pd.Series(np.arange(300), index=w.ids)
-    ref = d[pos[e["focal"]].to_numpy(), pos[e["neighbor"]].to_numpy()] * scale
+    ref = d[pos[e["source"]].to_numpy(), pos[e["target"]].to_numpy()] * scale
     np.testing.assert_allclose(e["distance"], ref, rtol=1e-12)  # reference: numpy distances times the scale
     band = vicino.within_distance(xy * scale, 0.1 * scale)
     ref_band = {(i, j) for i in range(300) for j in range(300) if i != j and d[i, j] <= 0.1}

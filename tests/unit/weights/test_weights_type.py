@@ -188,11 +188,11 @@ def test_to_edges_columns_and_values(rng):
     ids = pd.Index([f"z{i}" for i in range(50)], name="zone")
     w = vicino.k_nearest(xy, 4, ids=ids)
     e = w.to_edges()
-    assert list(e.columns) == ["focal", "neighbor", "weight", "distance"]
+    assert list(e.columns) == ["source", "target", "weight", "distance"]
     assert len(e) == w.nnz == 200  # reference: 50 units x k = 4
     dist, idx = cKDTree(xy).query(xy, k=5)  # reference: scipy.spatial.cKDTree
     expected = {(ids[i], ids[j]): dist[i, c + 1] for i in range(50) for c, j in enumerate(idx[i, 1:])}
-    got = {(f, nb): d for f, nb, d in zip(e["focal"], e["neighbor"], e["distance"])}
+    got = {(f, nb): d for f, nb, d in zip(e["source"], e["target"], e["distance"])}
     assert set(got) == set(expected)  # reference: scipy.spatial.cKDTree
     for key, d in expected.items():
         assert got[key] == pytest.approx(d, rel=1e-12)  # reference: scipy.spatial.cKDTree
@@ -201,10 +201,10 @@ def test_to_edges_columns_and_values(rng):
     # from_matrix knows no distances
     m = sp.random_array((10, 10), density=0.3, rng=rng, format="csr")
     e2 = vicino.from_matrix(m).to_edges()
-    assert list(e2.columns) == ["focal", "neighbor", "weight"]
+    assert list(e2.columns) == ["source", "target", "weight"]
     coo = m.tocoo()
     ref = sorted(zip(coo.row.tolist(), coo.col.tolist(), coo.data.tolist()))
-    assert sorted(zip(e2["focal"], e2["neighbor"], e2["weight"])) == ref  # reference: scipy COO of the input
+    assert sorted(zip(e2["source"], e2["target"], e2["weight"])) == ref  # reference: scipy COO of the input
 
 
 def test_neighbors_of(rng):

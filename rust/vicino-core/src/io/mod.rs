@@ -1,3 +1,9 @@
-//! Reading geometry from open standard encodings into flat buffers.
+//! Open standard encodings: Well-Known Binary polygons in, weights files
+//! (Matrix Market, triplet text) in and out.
 
+pub mod matrix_market;
+mod text;
+pub mod triplet;
 pub mod wkb;
+
+pub use matrix_market::WeightsFile;

@@ -1,0 +1,309 @@
+//! Reading and writing line-oriented numeric text in parallel, shared by the
+//! Matrix Market and triplet formats.
+//!
+//! Reading: the file is read whole (its size is checked against the memory
+//! budget first), cut into chunks at line boundaries, the lines of each chunk
+//! are counted, so that every entry knows its line number, and the chunks
+//! are parsed in parallel into (row, column, value, line) entries. Writing:
+//! blocks of rows are formatted in parallel into their own buffers and
+//! written in order. Floats are written in the shortest form that reads back
+//! to the same binary64 value (exact round trips), and parsed with correct
+//! rounding (Rust's `str::parse`). O(bytes).
+
+use crate::csr::{build_rows, CsrRef, Parts, PARALLEL_MIN_NNZ};
+use crate::error::{Error, Result};
+use crate::guard::Guard;
+use rayon::prelude::*;
+use std::io::Write;
+
+/// One stored entry of a text file: 0-based row and column, value, and
+/// the 1-based line it came from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Entry {
+    pub row: u32,
+    pub col: u32,
+    pub value: f64,
+    pub line: u64,
+}
+
+/// Where a read failed: the file and line, for the message.
+pub fn bad(path: &str, line: u64, reason: impl Into<String>) -> Error {
+    Error::BadFile { path: path.to_string(), line, reason: reason.into() }
+}
+
+/// The whole file, after checking its size against the budget.
+pub fn read_file(path: &str, guard: &Guard) -> Result<Vec<u8>> {
+    let io = |e: std::io::Error| Error::FileAccess { path: path.to_string(), reason: e.to_string() };
+    let size = std::fs::metadata(path).map_err(io)?.len();
+    // the text, and about as much again for the parsed entries
+    guard.reserve(2.0 * size as f64, "reading this file", "split the matrix, or read it on a larger machine")?;
+    std::fs::read(path).map_err(io)
+}
+
+/// The lines of `text` from byte `from` on, as chunks of whole lines with
+/// the 1-based number of each chunk's first line (`first_line` is the line
+/// number at `from`).
+pub fn chunks(text: &[u8], from: usize, first_line: u64) -> Vec<(u64, &[u8])> {
+    let body = &text[from..];
+    let target = (body.len() / (4 * rayon::current_num_threads().max(1))).max(1 << 16);
+    let mut cuts = vec![0usize];
+    let mut at = 0;
+    while at < body.len() {
+        let mut end = (at + target).min(body.len());
+        while end < body.len() && body[end - 1] != b'\n' {
+            end += 1;
+        }
+        cuts.push(end);
+        at = end;
+    }
+    let pieces: Vec<&[u8]> = cuts.windows(2).map(|w| &body[w[0]..w[1]]).collect();
+    let counts: Vec<u64> = pieces.par_iter().map(|p| p.iter().filter(|&&b| b == b'\n').count() as u64).collect();
+    let mut line = first_line;
+    pieces
+        .into_iter()
+        .zip(counts)
+        .map(|(p, c)| {
+            let start = line;
+            line += c;
+            (start, p)
+        })
+        .collect()
+}
+
+/// The whitespace-separated fields of a line, without the line end.
+fn fields(line: &[u8]) -> impl Iterator<Item = &[u8]> {
+    line.split(|b| b.is_ascii_whitespace()).filter(|f| !f.is_empty())
+}
+
+/// A 1-based index field.
+fn index(field: &[u8], path: &str, line: u64, n: u64, what: &str) -> Result<u32> {
+    let text = std::str::from_utf8(field).unwrap_or("?");
+    let v: u64 =
+        text.parse().map_err(|_| bad(path, line, format!("the {what} index {text:?} is not a whole number")))?;
+    if v == 0 {
+        return Err(bad(path, line, format!("the {what} index is 0, but indices in this format start at 1")));
+    }
+    if v > n {
+        return Err(bad(path, line, format!("the {what} index {v} is beyond the {n} units the file declares")));
+    }
+    Ok((v - 1) as u32)
+}
+
+/// A value field: a finite float.
+fn value(field: &[u8], path: &str, line: u64) -> Result<f64> {
+    let text = std::str::from_utf8(field).unwrap_or("?");
+    let v: f64 = text.parse().map_err(|_| bad(path, line, format!("the weight {text:?} is not a number")))?;
+    if !v.is_finite() {
+        return Err(bad(path, line, format!("the weight is {text}; weights must be finite")));
+    }
+    Ok(v)
+}
+
+/// How entry lines look.
+#[derive(Debug, Clone, Copy)]
+pub struct Layout {
+    /// units (rows and columns); indices beyond it are errors
+    pub n: u64,
+    /// whether each line carries a value after the two indices
+    pub valued: bool,
+    /// whether lines starting with `%` (or `#`) are comments to skip
+    pub comments: bool,
+}
+
+/// Parse the entry lines of all chunks in parallel, in file order. Blank
+/// lines are skipped.
+pub fn parse_entries(path: &str, parts: &[(u64, &[u8])], layout: Layout, guard: &Guard) -> Result<Vec<Entry>> {
+    let per_chunk: Vec<Vec<Entry>> = parts
+        .par_iter()
+        .map(|&(first, bytes)| {
+            guard.check()?;
+            let mut out = Vec::with_capacity(bytes.len() / 16);
+            for (k, raw) in bytes.split(|&b| b == b'\n').enumerate() {
+                let line = first + k as u64;
+                let raw = raw.strip_suffix(b"\r").unwrap_or(raw);
+                let mut f = fields(raw);
+                let Some(a) = f.next() else { continue };
+                if layout.comments && (a[0] == b'%' || a[0] == b'#') {
+                    continue;
+                }
+                let b = f
+                    .next()
+                    .ok_or_else(|| bad(path, line, "the line has one field; an entry needs a row and a column"))?;
+                let row = index(a, path, line, layout.n, "row")?;
+                let col = index(b, path, line, layout.n, "column")?;
+                let v = if layout.valued {
+                    let c =
+                        f.next().ok_or_else(|| bad(path, line, "the line has no weight after the row and column"))?;
+                    value(c, path, line)?
+                } else {
+                    1.0
+                };
+                if f.next().is_some() {
+                    return Err(bad(path, line, "the line has more fields than a row, a column and a weight"));
+                }
+                out.push(Entry { row, col, value: v, line });
+            }
+            Ok(out)
+        })
+        .collect::<Result<_>>()?;
+    let total: usize = per_chunk.iter().map(Vec::len).sum();
+    let mut all = Vec::with_capacity(total);
+    for c in per_chunk {
+        all.extend(c);
+    }
+    Ok(all)
+}
+
+/// Canonical CSR of n units from entries, refusing duplicate entries (both
+/// lines named) and weights that are not positive. With `mirror`, each
+/// off-diagonal entry (i, j) also stands for (j, i) (a symmetric file that
+/// stores one triangle).
+pub fn assemble(path: &str, n: usize, entries: &[Entry], mirror: bool, guard: &Guard) -> Result<Parts<f64>> {
+    // bucket the entries by row (counting sort), then sort each row
+    let mut count = vec![0usize; n + 1];
+    let each = |e: &Entry, f: &mut dyn FnMut(u32, u32)| {
+        f(e.row, e.col);
+        if mirror && e.row != e.col {
+            f(e.col, e.row);
+        }
+    };
+    for e in entries {
+        each(e, &mut |r, _| count[r as usize + 1] += 1);
+    }
+    for r in 0..n {
+        count[r + 1] += count[r];
+    }
+    guard.reserve(count[n] as f64 * 40.0, "the matrix in this file", "split the matrix")?;
+    let mut slot = count.clone();
+    let mut bucket = vec![(0u32, 0u32); count[n]]; // (column, entry index)
+    for (k, e) in entries.iter().enumerate() {
+        each(e, &mut |r, c| {
+            bucket[slot[r as usize]] = (c, k as u32);
+            slot[r as usize] += 1;
+        });
+    }
+    guard.check()?;
+    build_rows(
+        n,
+        None,
+        count[n] >= PARALLEL_MIN_NNZ,
+        Vec::new,
+        |row: &mut Vec<(u32, u32)>, i, cols, vals: &mut Vec<f64>| {
+            row.clear();
+            row.extend_from_slice(&bucket[count[i]..count[i + 1]]);
+            row.sort_unstable();
+            for (p, &(c, k)) in row.iter().enumerate() {
+                let e = &entries[k as usize];
+                if p > 0 && row[p - 1].0 == c {
+                    let first = entries[row[p - 1].1 as usize].line;
+                    return Err(bad(
+                        path,
+                        e.line.max(first),
+                        format!(
+                            "a second entry for row {}, column {} (the first is on line {}); each link must appear once",
+                            i + 1,
+                            c + 1,
+                            e.line.min(first)
+                        ),
+                    ));
+                }
+                if !(e.value > 0.0) {
+                    return Err(bad(
+                        path,
+                        e.line,
+                        format!(
+                            "the weight is {}; stored weights must be > 0 (a zero is no link: leave the line out)",
+                            e.value
+                        ),
+                    ));
+                }
+                cols.push(c as i64);
+                vals.push(e.value);
+            }
+            Ok(())
+        },
+    )
+}
+
+/// Append a float in the shortest form that reads back exactly.
+pub fn push_f64(out: &mut Vec<u8>, v: f64) {
+    let a = v.abs();
+    if a == 0.0 || (1e-5..1e16).contains(&a) {
+        let _ = write!(out, "{v}");
+    } else {
+        let _ = write!(out, "{v:e}");
+    }
+}
+
+/// Write `header`, then the lines that `line(i, w, out)` makes for each row
+/// i of `w` (formatted in parallel by blocks of rows), then `footer`, to
+/// `path`.
+pub fn write_rows(
+    path: &str,
+    header: &str,
+    w: CsrRef<'_>,
+    footer: &str,
+    guard: &Guard,
+    line: impl Fn(usize, &mut Vec<u8>) + Sync,
+) -> Result<()> {
+    let io = |e: std::io::Error| Error::FileAccess { path: path.to_string(), reason: e.to_string() };
+    let file = std::fs::File::create(path).map_err(io)?;
+    let mut sink = std::io::BufWriter::with_capacity(1 << 20, file);
+    sink.write_all(header.as_bytes()).map_err(io)?;
+    const ROWS: usize = 1 << 14; // rows per block
+    const WAVE: usize = 64; // blocks formatted at once, bounding the memory held
+    let blocks = w.n().div_ceil(ROWS);
+    for wave in (0..blocks).step_by(WAVE) {
+        guard.check()?;
+        let texts: Vec<Vec<u8>> = (wave..(wave + WAVE).min(blocks))
+            .into_par_iter()
+            .map(|b| {
+                let mut out =
+                    Vec::with_capacity(32 * (w.indptr()[((b + 1) * ROWS).min(w.n())] - w.indptr()[b * ROWS]) as usize);
+                for i in b * ROWS..((b + 1) * ROWS).min(w.n()) {
+                    line(i, &mut out);
+                }
+                out
+            })
+            .collect();
+        for t in texts {
+            sink.write_all(&t).map_err(io)?;
+        }
+    }
+    sink.write_all(footer.as_bytes()).map_err(io)?;
+    sink.flush().map_err(io)?;
+    sink.get_ref().sync_all().map_err(io)?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn shortest_round_trip_floats() {
+        for v in [1.0, 0.1, 1.0 / 3.0, 1e-300, 5e-324, 1.7976931348623157e308, 123456789.0, 2.5e-5] {
+            let mut out = Vec::new();
+            push_f64(&mut out, v);
+            let back: f64 = std::str::from_utf8(&out).unwrap().parse().unwrap();
+            assert_eq!(back.to_bits(), v.to_bits(), "{v}");
+        }
+        let mut out = Vec::new();
+        push_f64(&mut out, 0.25);
+        assert_eq!(out, b"0.25");
+    }
+
+    #[test]
+    fn chunks_keep_line_numbers() {
+        let text = b"a\nb\nc\n".repeat(50_000);
+        let parts = chunks(&text, 0, 1);
+        assert!(parts.len() > 1);
+        // every chunk starts on a line that is 1 more than the lines before it
+        let mut expect = 1;
+        for (first, bytes) in parts {
+            assert_eq!(first, expect);
+            expect += bytes.iter().filter(|&&b| b == b'\n').count() as u64;
+        }
+        assert_eq!(expect, 150_001);
+    }
+}

@@ -71,7 +71,7 @@ def shapely_border(geoms, i, j) -> np.ndarray:
 def edges_arrays(w: vicino.Weights):
     e = w.to_edges()
     pos = pd.Series(np.arange(w.n), index=w.ids)
-    return pos[e["focal"]].to_numpy(), pos[e["neighbor"]].to_numpy(), e
+    return pos[e["source"]].to_numpy(), pos[e["target"]].to_numpy(), e
 
 
 def segments(geom) -> np.ndarray:
@@ -363,7 +363,7 @@ def test_lattice_counts(rows, cols):
     _, _, e = edges_arrays(rook)
     assert (e["border_length"] == 1.0).all()  # reference: shapely length of a shared unit edge = 1
     _, _, eq = edges_arrays(queen)
-    diagonal = [abs(a[0] - b[0]) == 1 and abs(a[1] - b[1]) == 1 for a, b in zip(eq["focal"], eq["neighbor"])]
+    diagonal = [abs(a[0] - b[0]) == 1 and abs(a[1] - b[1]) == 1 for a, b in zip(eq["source"], eq["target"])]
     assert (eq["border_length"][diagonal] == 0.0).all()  # reference: shapely, corner contact has length 0
     assert (rook.perimeter == 4.0).all()  # reference: shapely.length(unit square) = 4
 
@@ -407,7 +407,7 @@ def test_holes_enclaves_and_multipolygons():
     ) not in q  # reference: shapely intersects False: multi's parts do not link their other neighbours
     assert list(queen.islands) == ["far"]  # reference: shapely intersects nothing for "far"
 
-    lengths = rook.to_edges().set_index(["focal", "neighbor"])["border_length"]
+    lengths = rook.to_edges().set_index(["source", "target"])["border_length"]
     hole_perimeter = shapely.length(shapely.get_interior_ring(geoms[0], 0))
     assert hole_perimeter == 12.0  # reference: shapely.length of the 3 x 3 hole ring
     assert lengths[("outer", "enclave")] == hole_perimeter  # reference: shapely length of the filled hole's ring

@@ -115,7 +115,7 @@ def _typed_ids(values: np.ndarray, dtype: str, where: str) -> pd.Index:
         except (TypeError, ValueError):
             raise FileFormatError(f"{where}: the ids are declared int64 but are not all whole numbers") from None
     if dtype == "str":
-        return pd.Index(values.astype(str), dtype=object)
+        return pd.Index(values.astype(str).tolist())  # pandas' own string dtype, as for ids given as str
     raise FileFormatError(f"{where}: unknown id dtype {dtype!r}; vicino writes int64 or str")
 
 
@@ -381,6 +381,15 @@ def _from_edge_table(
         raise FileFormatError(
             f"{where}, {line_of(e)}: the weight {table['weight'].iloc[e]!r} is not a finite number > 0"
         )
+    pairs = pd.DataFrame({"r": rows, "c": cols})
+    again = np.flatnonzero(pairs.duplicated().to_numpy())
+    if len(again):
+        e = int(again[0])
+        first_e = int(np.flatnonzero((rows == rows[e]) & (cols == cols[e]))[0])
+        raise FileFormatError(
+            f"{where}: {line_of(first_e)} and {line_of(e)} both give the link from {ids[rows[e]]!r} to "
+            f"{ids[cols[e]]!r}; each link must appear once"
+        )
     try:
         csr, first, _, _ = core.from_edges(len(ids), rows, cols, weight, "error", "keep", ids, edge_name=line_of)
     except VicinoError as err:
@@ -397,7 +406,7 @@ def _read_csv(path: Path) -> Weights:
     side = sidecar_of(path)
     if side.exists():
         ids = _read_sidecar(path, None)
-        as_str = ids.dtype == object
+        as_str = not pd.api.types.is_integer_dtype(ids.dtype)
     else:
         ids, as_str = None, False
     try:

@@ -19,11 +19,10 @@
 //! exactly. A comment line `%vicino <text>` carries what the caller wants
 //! kept (ids, recipe). O(bytes), parallel over chunks of lines.
 
-use super::text::{assemble, bad, chunks, parse_entries, push_f64, read_file, write_rows, Layout};
+use super::text::{assemble, bad, chunks, parse_entries, push_entry, push_f64, read_file, write_rows, Layout};
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
 use crate::guard::Guard;
-use std::io::Write;
 
 /// The prefix of the comment line that carries vicino's own record.
 pub const RECORD: &str = "%vicino ";
@@ -147,7 +146,7 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
     }
     let n = rows as usize;
     let (indptr, indices, data) = assemble(path, n, &entries, symmetric, guard)?;
-    Ok(WeightsFile { graph: Csr::new(n, indptr, indices, data)?, record, symmetric, pattern })
+    Ok(WeightsFile { graph: Csr::from_parts(n, (indptr, indices, data)), record, symmetric, pattern })
 }
 
 /// Write `w` to `path` in Matrix Market coordinate real format, with the
@@ -170,7 +169,7 @@ pub fn write(path: &str, w: CsrRef<'_>, record: &str, guard: &Guard) -> Result<b
             if symmetric && j as usize > i {
                 break;
             }
-            let _ = write!(out, "{} {} ", i + 1, j + 1);
+            push_entry(out, i, j as usize);
             push_f64(out, v);
             out.push(b'\n');
         }

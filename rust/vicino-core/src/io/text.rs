@@ -70,16 +70,58 @@ pub fn chunks(text: &[u8], from: usize, first_line: u64) -> Vec<(u64, &[u8])> {
         .collect()
 }
 
-/// The whitespace-separated fields of a line, without the line end.
-fn fields(line: &[u8]) -> impl Iterator<Item = &[u8]> {
-    line.split(|b| b.is_ascii_whitespace()).filter(|f| !f.is_empty())
+/// The whitespace-separated fields of a line, one at a time.
+struct Fields<'a> {
+    line: &'a [u8],
+    at: usize,
+}
+
+impl<'a> Iterator for Fields<'a> {
+    type Item = &'a [u8];
+    #[inline]
+    fn next(&mut self) -> Option<&'a [u8]> {
+        let l = self.line;
+        while self.at < l.len() && l[self.at].is_ascii_whitespace() {
+            self.at += 1;
+        }
+        if self.at == l.len() {
+            return None;
+        }
+        let start = self.at;
+        while self.at < l.len() && !l[self.at].is_ascii_whitespace() {
+            self.at += 1;
+        }
+        Some(&l[start..self.at])
+    }
+}
+
+fn fields(line: &[u8]) -> Fields<'_> {
+    Fields { line, at: 0 }
+}
+
+/// Digits as a whole number (None when not all digits, or too long).
+#[inline]
+fn digits(field: &[u8]) -> Option<u64> {
+    if field.is_empty() || field.len() > 19 {
+        return None;
+    }
+    let mut v = 0u64;
+    for &b in field {
+        let d = b.wrapping_sub(b'0');
+        if d > 9 {
+            return None;
+        }
+        v = v * 10 + d as u64;
+    }
+    Some(v)
 }
 
 /// A 1-based index field.
+#[inline]
 fn index(field: &[u8], path: &str, line: u64, n: u64, what: &str) -> Result<u32> {
-    let text = std::str::from_utf8(field).unwrap_or("?");
-    let v: u64 =
-        text.parse().map_err(|_| bad(path, line, format!("the {what} index {text:?} is not a whole number")))?;
+    let text = || String::from_utf8_lossy(field).into_owned();
+    let v =
+        digits(field).ok_or_else(|| bad(path, line, format!("the {what} index {:?} is not a whole number", text())))?;
     if v == 0 {
         return Err(bad(path, line, format!("the {what} index is 0, but indices in this format start at 1")));
     }
@@ -90,7 +132,13 @@ fn index(field: &[u8], path: &str, line: u64, n: u64, what: &str) -> Result<u32>
 }
 
 /// A value field: a finite float.
+#[inline]
 fn value(field: &[u8], path: &str, line: u64) -> Result<f64> {
+    if let Some(v) = digits(field) {
+        if v < (1 << 53) {
+            return Ok(v as f64); // whole numbers (binary weights) are exact
+        }
+    }
     let text = std::str::from_utf8(field).unwrap_or("?");
     let v: f64 = text.parse().map_err(|_| bad(path, line, format!("the weight {text:?} is not a number")))?;
     if !v.is_finite() {
@@ -225,6 +273,31 @@ pub fn assemble(path: &str, n: usize, entries: &[Entry], mirror: bool, guard: &G
     )
 }
 
+/// Append a whole number in decimal.
+#[inline]
+pub fn push_u64(out: &mut Vec<u8>, mut v: u64) {
+    let mut buf = [0u8; 20];
+    let mut at = buf.len();
+    loop {
+        at -= 1;
+        buf[at] = b'0' + (v % 10) as u8;
+        v /= 10;
+        if v == 0 {
+            break;
+        }
+    }
+    out.extend_from_slice(&buf[at..]);
+}
+
+/// Append "i j " (1-based) for an entry at row i, column j (0-based).
+#[inline]
+pub fn push_entry(out: &mut Vec<u8>, i: usize, j: usize) {
+    push_u64(out, i as u64 + 1);
+    out.push(b' ');
+    push_u64(out, j as u64 + 1);
+    out.push(b' ');
+}
+
 /// Append a float in the shortest form that reads back exactly.
 pub fn push_f64(out: &mut Vec<u8>, v: f64) {
     let a = v.abs();
@@ -271,8 +344,9 @@ pub fn write_rows(
         }
     }
     sink.write_all(footer.as_bytes()).map_err(io)?;
+    // (no fsync: the caller renames a complete file into place, which is what
+    // protects the target from an interrupted write)
     sink.flush().map_err(io)?;
-    sink.get_ref().sync_all().map_err(io)?;
     Ok(())
 }
 

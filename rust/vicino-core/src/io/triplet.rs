@@ -11,11 +11,10 @@
 //! and line named, as in [`super::matrix_market`]. O(bytes), parallel.
 
 use super::matrix_market::WeightsFile;
-use super::text::{assemble, bad, chunks, parse_entries, push_f64, read_file, write_rows, Layout};
+use super::text::{assemble, bad, chunks, parse_entries, push_entry, push_f64, read_file, write_rows, Layout};
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
 use crate::guard::Guard;
-use std::io::Write;
 
 /// The prefix of the comment line that carries vicino's own record.
 pub const RECORD: &str = "% vicino ";
@@ -62,7 +61,7 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
     }
     guard.reserve(n as f64 * 24.0, "the units this file names", "check the indices of the file")?;
     let (indptr, indices, data) = assemble(path, n, &entries, false, guard)?;
-    Ok(WeightsFile { graph: Csr::new(n, indptr, indices, data)?, record, symmetric: false, pattern: false })
+    Ok(WeightsFile { graph: Csr::from_parts(n, (indptr, indices, data)), record, symmetric: false, pattern: false })
 }
 
 /// Write `w` as triplet text with the closing `n n 0` line.
@@ -75,7 +74,7 @@ pub fn write(path: &str, w: CsrRef<'_>, record: &str, guard: &Guard) -> Result<(
     write_rows(path, &header, w, &footer, guard, |i, out| {
         let (cols, vals) = w.row(i);
         for (&j, &v) in cols.iter().zip(vals) {
-            let _ = write!(out, "{} {} ", i + 1, j + 1);
+            push_entry(out, i, j as usize);
             push_f64(out, v);
             out.push(b'\n');
         }

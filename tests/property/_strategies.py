@@ -22,6 +22,7 @@ import numpy as np
 import pandas as pd
 import scipy.sparse as sp
 import shapely
+from hypothesis import event
 from hypothesis import strategies as st
 from hypothesis.extra import numpy as hnp
 
@@ -63,7 +64,9 @@ def attempt(fn, *args, **kwargs) -> Outcome:
             value = fn(*args, **kwargs)
         except vicino.VicinoError as err:
             check_refusal(err)
+            event(f"{getattr(fn, '__name__', 'call')}: {type(err).__name__}")
             return Outcome(error=err)
+    event(f"{getattr(fn, '__name__', 'call')}: result")
     return Outcome(value=value)
 
 
@@ -575,6 +578,99 @@ def values_of(style: str, rng: np.random.Generator, shape: tuple[int, ...]) -> n
     if style == "wide":
         return rng.choice([-1.0, 1.0], shape) * 10.0 ** rng.uniform(-150, 150, shape)
     return rng.uniform(-10, 10, shape)
+
+
+@st.composite
+def bad_values(draw, n: int, ids: pd.Index):
+    """(values, reason, bug): values that must be refused for weights of n units with ``ids``."""
+    rng = np.random.default_rng(draw(st.integers(0, 2**32 - 1)))
+    x = rng.uniform(-5, 5, n)
+    i = draw(st.integers(0, n - 1))
+    kind = draw(
+        st.sampled_from(
+            [
+                "nan",
+                "inf",
+                "short",
+                "long",
+                "three_d",
+                "scalar",
+                "ragged",
+                "no_columns",
+                "bool",
+                "complex",
+                "datetime",
+                "timedelta",
+                "text",
+                "object_text",
+                "object_none",
+                "masked",
+                "nullable_na",
+                "int_na",
+                "series_misaligned",
+                "series_reordered",
+                "frame_repeated_columns",
+                "categorical",
+                "python_int_overflow",
+                "none",
+            ]
+        )
+    )
+    if kind in ("nan", "inf"):
+        y = x.copy()
+        y[i] = np.nan if kind == "nan" else -np.inf
+        return y, kind, None
+    if kind == "short":
+        return x[:-1], kind, None
+    if kind == "long":
+        return np.append(x, 1.0), kind, None
+    if kind == "three_d":
+        return np.zeros((n, 2, 2)), kind, None
+    if kind == "scalar":
+        return draw(st.sampled_from([1.0, np.float64(2), 3])), kind, None
+    if kind == "ragged":
+        rows = [[1.0, 2.0]] * max(n, 2)
+        rows[i] = [1.0]
+        return rows, kind, None
+    if kind == "no_columns":
+        return np.zeros((n, 0)), kind, None
+    if kind == "bool":
+        return x > 0, kind, None
+    if kind == "complex":
+        return x.astype(complex), kind, None
+    if kind == "datetime":
+        return np.full(n, np.datetime64("2021-06-01")), kind, None
+    if kind == "timedelta":
+        return np.arange(n).astype("timedelta64[D]"), kind, None
+    if kind == "text":
+        return x.astype(str), kind, None
+    if kind in ("object_text", "object_none"):
+        y = x.astype(object)
+        y[i] = "a" if kind == "object_text" else None
+        return y, kind, None
+    if kind == "masked":
+        mask = np.zeros(n, dtype=bool)
+        mask[i] = True
+        return np.ma.masked_array(x, mask=mask), kind, None
+    if kind in ("nullable_na", "int_na"):
+        arr = pd.array(np.round(x) if kind == "int_na" else x, dtype="Int64" if kind == "int_na" else "Float64")
+        arr[i] = pd.NA
+        return pd.Series(arr, index=ids), kind, None
+    if kind == "series_misaligned":
+        return pd.Series(x, index=[f"other{k}" for k in range(n)]), kind, None
+    if kind == "series_reordered":
+        if n < 2:
+            return pd.Series(x, index=["zz"]), kind, None
+        return pd.Series(x[::-1], index=ids[::-1]), kind, None
+    if kind == "frame_repeated_columns":
+        return pd.DataFrame(np.column_stack([x, x]), index=ids, columns=["a", "a"]), kind, None
+    if kind == "categorical":
+        return pd.Series(pd.Categorical(np.round(x)), index=ids), kind, None
+    if kind == "python_int_overflow":
+        y = x.tolist()
+        y[i] = 2**1024
+        return y, kind, "overflowing-python-ints"
+    return None, kind, None
 
 
 # ---------------------------------------------------------------------------

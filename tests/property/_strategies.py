@@ -112,9 +112,12 @@ OPEN_BUGS = {
     "cliff-ord-large-coordinates",  # Cliff-Ord loses every link above ~1e102 (centroids overflow)
     "cliff-ord-powers-unchecked",  # NaN / negative / infinite powers accepted, links silently dropped
     "algebra-non-weights",  # w | 3 raises a bare TypeError
-    "set-memory-limit-unchecked",  # set_memory_limit(-1 / 0 / "x" / 1.5 / 2**70): bare errors
+    "set-memory-limit-unchecked",  # set_memory_limit(-1 / 0 / "x" / 1.5 / 2**70): bare errors; True taken as 1 byte
     "symmetrize-mean-subnormal",  # symmetrize("mean") silently drops one-way links of the smallest weights
     "drop-islands-self-linked",  # drop_islands keeps units whose only link is to themselves
+    "weights-constructor-bare-errors",  # Weights(...) with text / None / 2**64 / complex buffers: bare errors
+    "weights-constructor-casts-silently",  # Weights(...) truncates fractional positions, reads bool / text weights
+    "spectral-radius-small-blocks",  # a cycle whose radius is below ~1e-16 of the largest weight gives 0
 }
 
 

@@ -64,8 +64,10 @@ def test_audit_facts_match_numpy_and_networkx(m, network):
     assert a.n == m.n and a.links == np.count_nonzero(d)
     np.testing.assert_array_equal(a.counts.to_numpy(), counts)
     assert a.summary["min"] == counts.min() and a.summary["max"] == counts.max()
-    assert a.summary["median"] == np.median(counts) and a.summary["mean"] == pytest.approx(counts.mean())
-    assert a.histogram["units"].sum() == m.n and a.histogram["share"].sum() == pytest.approx(1.0)
+    assert a.summary["median"] == np.median(counts) and a.summary["mean"] == pytest.approx(
+        counts.mean(), rel=1e-12, abs=0
+    )
+    assert a.histogram["units"].sum() == m.n and a.histogram["share"].sum() == pytest.approx(1.0, rel=1e-12, abs=0)
     assert list(a.islands) == list(m.ids[islands(d)])
     assert list(a.zero_columns) == list(m.ids[links.sum(axis=0) == 0])
     assert a.self_links == np.count_nonzero(np.diag(d))
@@ -78,7 +80,7 @@ def test_audit_facts_match_numpy_and_networkx(m, network):
         i, j = np.unravel_index(np.argmax(asym), asym.shape)  # the first (lowest) pair among equals
         assert a.max_asymmetry == (asym[i, j], m.ids[i], m.ids[j])
     expected_density = links.sum() / (m.n * (m.n - 1)) if m.n > 1 else 0.0
-    assert a.density == pytest.approx(expected_density, rel=1e-15)
+    assert a.density == pytest.approx(expected_density, rel=1e-15, abs=0)
     # reference: networkx weakly connected components (0 the largest, ties to the lowest position)
     labels, sizes = component_labels(d)
     assert a.components.count == len(sizes)
@@ -171,7 +173,7 @@ def test_connect_islands_links_each_island_to_its_nearest(pts, shape, data):
     for f, t, dist in zip(edges["focal"], edges["neighbor"], edges["distance"], strict=True):
         pair = (pos[f], pos[t])
         if pair in new:
-            assert dist == pytest.approx(np.ldexp(np.sqrt(float(d2[pair])), pts.exp), rel=1e-15)
+            assert dist == pytest.approx(np.ldexp(np.sqrt(float(d2[pair])), pts.exp), rel=1e-15, abs=0)
         else:
             assert np.isnan(dist)  # weights from a matrix know no distance for their own links
 
@@ -296,12 +298,12 @@ def test_repairs_locate_polygons_at_their_centroids(t):
     edges = fixed.to_edges()
     added = edges[edges["border_length"].isna()]
     for f, g, dist in zip(added["focal"], added["neighbor"], added["distance"], strict=True):
-        assert dist == pytest.approx(d[f, g] * 2.0**t.exp, rel=1e-12)
+        assert dist == pytest.approx(d[f, g] * 2.0**t.exp, rel=1e-12, abs=0)
     for i in np.flatnonzero(w.counts.to_numpy() == 0):
         mine = added[added["focal"] == i]
         others = np.array([q for q in range(t.n) if q != i])
         assert len(mine) >= 1
-        assert mine["distance"].min() == pytest.approx(d[i, others].min(), rel=1e-12)
+        assert mine["distance"].min() == pytest.approx(d[i, others].min(), rel=1e-12, abs=0)
     assert len(fixed.islands) == 0
 
 

@@ -60,7 +60,7 @@ def test_from_matrix_keeps_every_weight(m, form, network):
     assert list(w.islands) == list(m.ids[islands(ref)])
     assert w.self_links == np.count_nonzero(np.diag(ref))
     expected_density = links.sum() / (m.n * (m.n - 1)) if m.n > 1 else 0.0
-    assert w.density == pytest.approx(expected_density, rel=1e-15)
+    assert w.density == pytest.approx(expected_density, rel=1e-15, abs=0)
     assert bool(w.recipe[0].params.get("network", False)) == network
 
 
@@ -190,6 +190,99 @@ def invalid_matrices(draw):
 def test_from_matrix_refuses_invalid_matrices(case):
     m, kw, reason = case
     refused(attempt(vicino.from_matrix, m, **kw), what=reason)
+
+
+# ---------------------------------------------------------------------------
+# the Weights constructor (checked CSR buffers)
+# ---------------------------------------------------------------------------
+@given(m=matrices(self_links=None), data=st.data())
+def test_weights_constructor_takes_canonical_buffers(m, data):
+    ref = sp.csr_array(m.dense)  # reference: scipy.sparse canonical CSR
+    kind = data.draw(st.sampled_from([np.int64, np.int32, np.uint32, list]), label="index type")
+    conv = (lambda a: a.tolist()) if kind is list else (lambda a: a.astype(kind))
+    w = succeeded(attempt(vicino.Weights, conv(ref.indptr), conv(ref.indices), ref.data.copy(), m.ids))
+    np.testing.assert_array_equal(w.to_dense(), m.dense)
+    assert w.ids.equals(m.ids)
+
+
+@st.composite
+def broken_buffers(draw):
+    """(indptr, indices, data, ids, reason, bug) of a 3-unit matrix that must be refused."""
+    p, i, d, ids = [0, 1, 3, 3], [1, 0, 2], [1.0, 2.0, 3.0], ["a", "b", "c"]
+    kind = draw(
+        st.sampled_from(
+            [
+                "index_out_of_range",
+                "negative_index",
+                "unsorted",
+                "repeated",
+                "indptr_decreasing",
+                "indptr_end",
+                "lengths",
+                "zero",
+                "nan",
+                "negative",
+                "indptr_2d",
+                "empty",
+                "ids",
+                "recipe",
+                "text_index",
+                "none_index",
+                "index_beyond_64_bits",
+                "complex_weight",
+                "weights_2d",
+                "ragged",
+                "scalar_indptr",
+                "recipe_not_iterable",
+                "weight_beyond_float",
+                "fractional_index",
+                "fractional_indptr",
+                "bool_weights",
+                "text_weights",
+            ]
+        )
+    )
+    bare = "weights-constructor-bare-errors"
+    cast = "weights-constructor-casts-silently"
+    cases = {
+        "index_out_of_range": (p, [1, 0, draw(st.integers(3, 2**63 - 1))], d, ids, None),
+        "negative_index": (p, [1, 0, draw(st.integers(-(2**63), -1))], d, ids, None),
+        "unsorted": (p, [1, 2, 0], d, ids, None),
+        "repeated": (p, [1, 0, 0], d, ids, None),
+        "indptr_decreasing": ([0, 3, 1, 3], i, d, ids, None),
+        "indptr_end": ([0, 1, 3, 4], i, d, ids, None),
+        "lengths": (p, i, [1.0, 2.0], ids, None),
+        "zero": (p, i, [1.0, 0.0, 3.0], ids, None),
+        "nan": (p, i, [1.0, np.nan, 3.0], ids, None),
+        "negative": (p, i, [1.0, -2.0, 3.0], ids, None),
+        "indptr_2d": ([p], i, d, ids, None),
+        "empty": ([0], [], [], [], None),
+        "ids": (p, i, d, ["a", "a", "c"], None),
+        "recipe": (p, i, d, ids, None),
+        "text_index": (p, [1, "x", 2], d, ids, bare),
+        "none_index": (p, [1, None, 2], d, ids, bare),
+        "index_beyond_64_bits": (p, [1, 0, 2**64], d, ids, bare),
+        "complex_weight": (p, i, [1.0, 2j, 3.0], ids, bare),
+        "weights_2d": (p, i, [[1.0], [2.0], [3.0]], ids, bare),
+        "ragged": (p, [[1], [0, 2], [2]], d, ids, bare),
+        "scalar_indptr": (3, i, d, ids, bare),
+        "recipe_not_iterable": (p, i, d, ids, bare),
+        "weight_beyond_float": (p, i, [1.0, 10**400, 3.0], ids, bare),
+        "fractional_index": (p, [1.0, 0.5, 2.0], d, ids, cast),
+        "fractional_indptr": ([0, 1.5, 3, 3], i, d, ids, cast),
+        "bool_weights": (p, i, [True, True, True], ids, cast),
+        "text_weights": (p, i, ["1", "2", "3"], ids, cast),
+    }
+    indptr, indices, data, names, bug = cases[kind]
+    return indptr, indices, data, names, kind, bug
+
+
+@given(case=broken_buffers())
+def test_weights_constructor_refuses_broken_buffers(case):
+    indptr, indices, data, ids, reason, bug = case
+    assume(not (bug and open_bug(bug)))
+    kw = {"recipe": ["not a step"]} if reason == "recipe" else {"recipe": 5} if reason == "recipe_not_iterable" else {}
+    refused(attempt(vicino.Weights, indptr, indices, data, ids, **kw), what=reason)
 
 
 # ---------------------------------------------------------------------------
@@ -385,8 +478,10 @@ def test_spectral_radius_matches_numpy_eigenvalues(m):
     if is_acyclic(m.dense):
         assert out.value == 0.0  # reference: networkx (no cycle, so every eigenvalue is 0)
         return
+    if small_radius(m.dense) and open_bug("spectral-radius-small-blocks"):
+        return  # held back: see test_bug_spectral_radius_of_a_faint_cycle
     # reference: numpy.linalg.eigvals
-    assert out.value == pytest.approx(spectral_radius(m.dense), rel=1e-6)
+    assert out.value == pytest.approx(spectral_radius(m.dense), rel=1e-6, abs=0)
 
 
 @given(m=matrices(min_n=1, max_n=6), data=st.data())
@@ -395,9 +490,48 @@ def test_symmetrize_refuses_unknown_rules(m, data):
     refused(attempt(w.symmetrize, data.draw(unknown_options(("union", "intersection", "mean")))))
 
 
+def small_radius(dense: np.ndarray) -> bool:
+    """Whether the spectral radius is far below the largest weight (numpy.linalg.eigvals)."""
+    return spectral_radius(dense) < 1e-9 * dense.max()
+
+
 # ---------------------------------------------------------------------------
 # regressions: minimal cases of open bugs
 # ---------------------------------------------------------------------------
+@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: spectral radius 0 for a faint cycle")
+def test_bug_spectral_radius_of_a_faint_cycle():
+    # a directed 3-cycle of weight 1e-20 (radius 1e-20) and one link of weight 1 into it
+    a = 1e-20
+    w = vicino.from_matrix(np.array([[0, a, 0, 0], [0, 0, a, 0], [a, 0, 0, 0], [1.0, 0, 0, 0]]))
+    # reference: numpy.linalg.eigvals gives 1e-20 (the cube roots of a^3)
+    assert w.spectral_radius() == pytest.approx(1e-20, rel=1e-9, abs=0)
+
+
+@pytest.mark.xfail(
+    strict=True,
+    raises=(ValueError, TypeError, OverflowError),
+    reason="vicino bug: Weights() lets NumPy's ValueError / TypeError / OverflowError through",
+)
+@pytest.mark.parametrize(
+    "buffers",
+    [
+        ([0, 1, 2], [1, "x"], [1.0, 1.0]),
+        ([0, 1, 2], [1, 2**64], [1.0, 1.0]),
+        ([0, 1, 2], [1, 0], [1.0, 1j]),
+        (2, [1, 0], [1.0, 1.0]),
+    ],
+    ids=["text index", "index beyond 64 bits", "complex weight", "scalar indptr"],
+)
+def test_bug_weights_constructor_bare_errors(buffers):
+    refused(attempt(vicino.Weights, *buffers, ids=["a", "b"]))
+
+
+@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: Weights() truncates fractional positions")
+def test_bug_weights_constructor_truncates_a_fractional_row_pointer():
+    # indptr [0, 1.9, 2] is read as [0, 1, 2]: a matrix other than any the buffers describe
+    refused(attempt(vicino.Weights, [0, 1.9, 2], [1, 0], [1.0, 2.0], ["a", "b"]))
+
+
 @pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: symmetrize('mean') drops a 5e-324 link")
 def test_bug_symmetrize_mean_drops_the_smallest_one_way_link():
     w = vicino.from_matrix(np.array([[0.0, 5e-324], [0.0, 0.0]]))

@@ -108,7 +108,7 @@ def test_contiguity_matches_shapely(t, form, named):
     assert set(got) == rook
     for pair, value in got.items():
         # reference: shapely length of the intersection of the two boundaries (scaled exactly by 2^exp)
-        assert value == pytest.approx(np.ldexp(border[pair], t.exp), rel=1e-12)
+        assert value == pytest.approx(np.ldexp(border[pair], t.exp), rel=1e-12, abs=0)
     # reference: shapely length (perimeter) of each unit
     np.testing.assert_allclose(
         r.perimeter.to_numpy(), np.ldexp(shapely.length(plain).astype(np.float64), t.exp), rtol=1e-12
@@ -157,7 +157,7 @@ def test_cliff_ord_matches_shapely(t, border_power, distance_power):
     for (i, j), value in got.items():
         # reference: Cliff and Ord (1981) w_ij = (b_ij / p_i)^a / d_ij^b, with shapely lengths and centroids
         ref = (border[(i, j)] / perimeter[i]) ** border_power / dist[(i, j)] ** distance_power
-        assert value == pytest.approx(ref * 2.0 ** (-t.exp * distance_power), rel=1e-9)
+        assert value == pytest.approx(ref * 2.0 ** (-t.exp * distance_power), rel=1e-9, abs=0)
 
 
 # ---------------------------------------------------------------------------

@@ -59,6 +59,8 @@ def test_standardize_matches_dense_formulas(m, method, keep):
         if not out.ok and isinstance(out.error, vicino.ConvergenceError) and (m.dense != m.dense.T).any():
             return  # documented limit of the iteration on non-symmetrizable matrices
         rho = spectral_radius(m.dense)  # reference: numpy.linalg.eigvals
+        if rho < 1e-9 * m.dense.max() and open_bug("spectral-radius-small-blocks"):
+            return  # held back: see test_bug_spectral_radius_of_a_faint_cycle
     # reference: NumPy dense formulas in extended precision
     ref = standardized(m.dense, method, rho)
     stored = m.dense > 0

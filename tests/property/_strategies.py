@@ -118,6 +118,7 @@ OPEN_BUGS = {
     "weights-constructor-bare-errors",  # Weights(...) with text / None / 2**64 / complex buffers: bare errors
     "weights-constructor-casts-silently",  # Weights(...) truncates fractional positions, reads bool / text weights
     "spectral-radius-small-blocks",  # a cycle whose radius is below ~1e-16 of the largest weight gives 0
+    "multiindex-ids",  # a MultiIndex as ids (or as a DataFrame's index): bare NotImplementedError
 }
 
 

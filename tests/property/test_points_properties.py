@@ -136,7 +136,9 @@ def test_within_distance_matches_exact_brute_force(pts, data):
     d2 = exact_squared_distances(pts.ints)
     # the radius is often exactly one of the distances, to test that the bound is inclusive
     r2 = data.draw(st.one_of(st.sampled_from(sorted(set(d2.ravel().tolist()))), st.integers(0, 10**6)), label="r2")
-    radius = float(np.ldexp(np.sqrt(float(r2)), pts.exp))
+    # the radius is usually one of the distances; sometimes the largest float (everyone within reach)
+    huge = data.draw(st.sampled_from([None] * 9 + [np.finfo(np.float64).max]), label="huge radius")
+    radius = float(np.ldexp(np.sqrt(float(r2)), pts.exp)) if huge is None else huge
     form = data.draw(st.sampled_from(POINT_FORMS), label="form")
     inp = point_input(pts.xy, form, data.draw(id_choices(pts.n)), pts.ints if pts.exp == 0 else None)
     w = succeeded(attempt(vicino.within_distance, inp.obj, radius, **inp.kwargs), form)
@@ -343,6 +345,24 @@ def test_builders_refuse_bad_columns(pts, data):
     refused(attempt(vicino.k_nearest, pts.xy, 1, columns=("x", "y")), vicino.InvalidInputError)
 
 
+@pytest.mark.skipif(open_bug("multiindex-ids"), reason="open bug: test_bug_multiindex_ids")
+@given(pts=grid_points(min_n=2, max_n=20, scales=(0,)), data=st.data())
+def test_builders_take_multiindex_ids(pts, data):
+    n = pts.n
+    ids = pd.MultiIndex.from_arrays([[f"r{i // 3}" for i in range(n)], [i % 3 for i in range(n)]])
+    k = data.draw(st.integers(1, n - 1))
+    as_frame = data.draw(st.booleans())
+    obj = pd.DataFrame({"x": pts.xy[:, 0], "y": pts.xy[:, 1]}, index=ids) if as_frame else pts.xy
+    w = succeeded(attempt(vicino.k_nearest, obj, k, **({} if as_frame else {"ids": ids})))
+    assert w.ids.equals(ids)
+    # reference: NumPy brute force on exact integers
+    expected = nearest_by_distance_then_position(exact_squared_distances(pts.ints), k)
+    assert rows_of(w) == expected
+    i = data.draw(st.integers(0, n - 1))
+    assert list(w.neighbors_of(ids[i]).index) == list(ids[expected[i]])
+    refused(attempt(w.neighbors_of, ids[i][0]), vicino.IdError)  # part of a key names several units
+
+
 # ---------------------------------------------------------------------------
 # regressions: minimal cases of open bugs
 # ---------------------------------------------------------------------------
@@ -351,6 +371,15 @@ def test_builders_refuse_bad_columns(pts, data):
 )
 def test_bug_python_int_beyond_float_range_as_coordinate():
     refused(attempt(vicino.k_nearest, [[2**1024, 0.0], [0.0, 0.0], [1.0, 1.0]], 1))
+
+
+@pytest.mark.xfail(
+    strict=True, raises=NotImplementedError, reason="vicino bug: MultiIndex ids raise NotImplementedError"
+)
+def test_bug_multiindex_ids():
+    ids = pd.MultiIndex.from_tuples([("a", 1), ("a", 2), ("b", 1)])
+    w = vicino.k_nearest(np.array([[0.0, 0.0], [1.0, 0.0], [3.0, 0.0]]), 1, ids=ids)
+    assert w.ids.equals(ids)
 
 
 @pytest.mark.xfail(strict=True, raises=TypeError, reason="vicino bug: columns=5 raises a bare TypeError")

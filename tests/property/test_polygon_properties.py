@@ -160,6 +160,59 @@ def test_cliff_ord_matches_shapely(t, border_power, distance_power):
         assert value == pytest.approx(ref * 2.0 ** (-t.exp * distance_power), rel=1e-9, abs=0)
 
 
+def haversine_pairs(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Great-circle distances in km between rows of (lon, lat) degrees (haversine, R1 = 6371.0088 km)."""
+    lam1, phi1, lam2, phi2 = map(np.radians, (a[:, 0], a[:, 1], b[:, 0], b[:, 1]))
+    h = np.sin((phi2 - phi1) / 2) ** 2 + np.cos(phi1) * np.cos(phi2) * np.sin((lam2 - lam1) / 2) ** 2
+    return 2 * 6371.0088 * np.arcsin(np.sqrt(np.clip(h, 0, 1)))
+
+
+def great_circle_length(geom) -> float:
+    """Sum of the great-circle lengths of the straight (lon, lat) segments of a geometry's lines."""
+    total = 0.0
+    for part in shapely.get_parts(shapely.line_merge(geom) if geom.geom_type != "Polygon" else geom.boundary):
+        for ring in [part] if part.geom_type != "Polygon" else [part.exterior, *part.interiors]:
+            xy = shapely.get_coordinates(ring)
+            total += haversine_pairs(xy[:-1], xy[1:]).sum()
+    return total
+
+
+@given(
+    t=tilings(scales=(0,)),
+    lon0=st.integers(-170, 160),
+    lat0=st.integers(-80, 70),
+    cell=st.sampled_from([1.0, 0.125]),
+    border_power=st.sampled_from([0.0, 1.0]),
+    distance_power=st.sampled_from([0.0, 1.0, 2.0]),
+)
+def test_cliff_ord_on_the_sphere_matches_haversine(t, lon0, lat0, cell, border_power, distance_power):
+    plain = t.shapes(scaled=False)
+    geoms = shapely.transform(plain, lambda c: c * cell + np.array([lon0, lat0]))
+    _, rook, _ = shapely_contacts(plain)  # reference: shapely (GEOS), topology as in the plane
+    out = attempt(
+        vicino.cliff_ord, geoms, border_power=border_power, distance_power=distance_power, metric="great_circle"
+    )
+    centre = np.full((t.n, 2), np.nan)
+    live = ~shapely.is_empty(geoms)
+    centre[live] = shapely.get_coordinates(shapely.centroid(geoms[live]))
+    dist = {(i, j): float(haversine_pairs(centre[[i]], centre[[j]])[0]) for i, j in rook}
+    if distance_power != 0 and any(d == 0 for d in dist.values()):
+        refused(out, vicino.InvalidParameterError)
+        return
+    w = succeeded(out)
+    # reference: haversine great-circle lengths of each segment of the boundary
+    perimeter = np.array([great_circle_length(g) if not g.is_empty else 0.0 for g in geoms])
+    np.testing.assert_allclose(w.perimeter.to_numpy(), perimeter, rtol=1e-9, atol=0)
+    got = weights_by_pair(w)
+    assert set(got) == rook
+    for (i, j), value in got.items():
+        shared = great_circle_length(shapely.intersection(geoms[i].boundary, geoms[j].boundary))
+        # reference: Cliff and Ord (1981) with haversine lengths and distances between planar centroids;
+        # a stretch that covers part of a segment is measured as that share of the segment's arc
+        ref = (shared / perimeter[i]) ** border_power / dist[(i, j)] ** distance_power
+        assert value == pytest.approx(ref, rel=1e-9 if border_power == 0 else 5e-3, abs=0)
+
+
 # ---------------------------------------------------------------------------
 # enclaves, overlaps and broken geometry
 # ---------------------------------------------------------------------------

@@ -237,6 +237,7 @@ def lonlat_points(draw, min_n: int = 2, max_n: int = 40) -> np.ndarray:
 
 POINT_FORMS = (
     "array",
+    "geodataframe",
     "list",
     "frame",
     "frame_lonlat",
@@ -282,10 +283,13 @@ def point_input(xy: np.ndarray, form: str, ids: pd.Index | None, ints: np.ndarra
         return PointInput(df, {}, index)
     if form == "shapely":
         return PointInput(list(shapely.points(xy)), kw, index)
-    if form == "geoseries":
+    if form in ("geoseries", "geodataframe"):
         import geopandas
 
-        return PointInput(geopandas.GeoSeries(shapely.points(xy), index=index), {}, index)
+        geoms = geopandas.GeoSeries(shapely.points(xy), index=index)
+        if form == "geoseries":
+            return PointInput(geoms, {}, index)
+        return PointInput(geopandas.GeoDataFrame({"v": np.arange(n)}, geometry=geoms, index=index), {}, index)
     if form == "big_endian":
         return PointInput(xy.astype(">f8"), kw, index)
     if form == "strided":

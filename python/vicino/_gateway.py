@@ -23,6 +23,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from . import _core
+from ._checks import whole_number
 from ._ids import render
 from .errors import InvalidInputError, VicinoError
 
@@ -83,7 +84,16 @@ def get_memory_limit() -> int:
 
 
 def set_memory_limit(nbytes: int | None) -> None:
-    """Set the memory budget in bytes (None: half the physical memory)."""
+    """Set the memory budget of vicino's computations in bytes.
+
+    Parameters
+    ----------
+    nbytes : int or None
+        At least 1 byte and below 2**64; None restores the default (half
+        the physical memory).
+    """
+    if nbytes is not None:
+        nbytes = whole_number(nbytes, "nbytes", minimum=1, maximum=2**64 - 1)
     _core.set_memory_limit(nbytes)
 
 

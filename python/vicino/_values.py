@@ -114,5 +114,7 @@ def _array(values: Any, ids: pd.Index) -> np.ndarray:
             raw = raw.astype(np.float64)
         except (TypeError, ValueError):
             raise InvalidTypeError("values are not all numbers; convert them first (pd.to_numeric)") from None
+        except OverflowError:
+            raise InvalidValuesError("values hold integers beyond the range of floating point (about 1e308)") from None
     _refuse_kind(raw.dtype, "values")
     return raw.astype(np.float64, copy=False)

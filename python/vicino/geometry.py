@@ -133,6 +133,8 @@ def _numeric(block: Any, what: str, index: pd.Index | None = None) -> np.ndarray
             arr = arr.astype(np.float64)
         except (TypeError, ValueError) as exc:
             raise InvalidTypeError(f"{what} must be numeric ({exc}); convert them with pd.to_numeric") from None
+        except OverflowError:
+            raise InvalidInputError(f"{what} hold integers beyond the range of floating point (about 1e308)") from None
     if arr.dtype.kind not in "iuf":
         found = KIND_NAMES.get(arr.dtype.kind, f"dtype {arr.dtype}")
         raise InvalidTypeError(f"{what} are {found}; coordinates must be real numbers")
@@ -149,6 +151,8 @@ def _frame_columns(df: pd.DataFrame, columns: Any) -> list:
 
 def _pick_columns(df: pd.DataFrame, columns: Any) -> list:
     if columns is not None:
+        if isinstance(columns, (str, bytes)) or not isinstance(columns, (list, tuple, pd.Index, np.ndarray)):
+            raise InvalidInputError(f"columns must be a pair of column names, such as ('lon', 'lat'), got {columns!r}")
         cols = list(columns)
         if len(cols) != 2:
             raise InvalidInputError(f"columns must name two columns (x, y) or (longitude, latitude), got {cols}")

@@ -20,6 +20,7 @@ from ._ids import examples, id_differences, is_unit_key, make_ids
 from ._values import as_values
 from .errors import (
     IdError,
+    InvalidTypeError,
     InvalidMatrixError,
     InvalidParameterError,
     InvalidParameterTypeError,
@@ -60,6 +61,24 @@ class Step:
     def __str__(self) -> str:
         args = ", ".join(f"{k}={v!r}" for k, v in self.params.items())
         return f"{self.action}({args})"
+
+
+def _buffer(values: Any, name: str, kinds: str) -> np.ndarray:
+    """A one-dimensional buffer of the given dtype kinds, refused rather than cast when it is not one."""
+    try:
+        arr = np.asarray(values)
+    except (ValueError, TypeError, OverflowError) as exc:
+        raise InvalidMatrixError(f"{name} could not be read as an array ({exc})") from None
+    if arr.ndim != 1:
+        raise InvalidMatrixError(f"{name} must be one-dimensional, got shape {arr.shape}")
+    if arr.size == 0:
+        return arr.astype(np.int64 if kinds == "iu" else np.float64)  # an empty list has no dtype of its own
+    if arr.dtype.kind not in kinds:
+        want = "whole numbers" if kinds == "iu" else "real numbers"
+        raise InvalidTypeError(f"{name} must hold {want}, got dtype {arr.dtype}")
+    if arr.dtype.kind == "u" and arr.size and arr.max() > np.iinfo(np.int64).max:
+        raise InvalidMatrixError(f"{name} holds values beyond 64-bit signed integers")
+    return arr
 
 
 def _facts(facts: Mapping[str, Any] | None, size: int, what: str) -> Mapping[str, np.ndarray]:
@@ -120,12 +139,14 @@ class Weights:
     _counts: npt.NDArray[np.int64] | None
 
     def __init__(self, indptr: Any, indices: Any, data: Any, ids: Any, recipe: Iterable[Step] = ()) -> None:
-        indptr = np.asarray(indptr)
+        indptr = _buffer(indptr, "indptr", "iu")
         n = len(indptr) - 1
-        if indptr.ndim != 1 or n < 1:
-            raise InvalidMatrixError("indptr must be a one-dimensional array of n + 1 row pointers, n >= 1")
+        if n < 1:
+            raise InvalidMatrixError("indptr must hold n + 1 row pointers for n >= 1 units")
         units = make_ids(ids, n)
-        p, i, d = core.validate(n, indptr, indices, data, units)
+        p, i, d = core.validate(n, indptr, _buffer(indices, "indices", "iu"), _buffer(data, "data", "iuf"), units)
+        if isinstance(recipe, (str, bytes)) or not isinstance(recipe, Iterable):
+            raise InvalidParameterTypeError("recipe must be a sequence of vicino.Step")
         steps = tuple(recipe)
         if not all(isinstance(s, Step) for s in steps):
             raise InvalidParameterTypeError("recipe must be a sequence of vicino.Step")
@@ -481,9 +502,11 @@ class Weights:
         out = core.order(self._core(), k, bool(cumulative), self._ids)
         return self._rebuild(out, Step("order", {"k": k, "cumulative": bool(cumulative)}))
 
-    def _combine(self, other, op: str, symbol: str) -> Weights:
+    def _combine(self, other: Any, op: str, symbol: str) -> Weights:
         if not isinstance(other, Weights):
-            return NotImplemented
+            raise InvalidTypeError(
+                f"weights combine with {symbol} only with other vicino.Weights, got {type(other).__name__}"
+            )
         if not self._ids.equals(other._ids):
             raise IdError(
                 f"weights combined with {symbol} must have the same ids in the same order "
@@ -551,7 +574,7 @@ class Weights:
 
     def drop_islands(self) -> Weights:
         """The weights without their islands (units without neighbours)."""
-        keep = np.flatnonzero(np.diff(self._indptr) > 0).astype(np.int64)
+        keep = np.flatnonzero(self._neighbour_counts() > 0).astype(np.int64)
         return self._select(keep, Step("drop_islands", {"units": self.n - len(keep)}))
 
     def align(self, index) -> Weights:

@@ -103,22 +103,12 @@ def open_bug(name: str) -> bool:
 
 
 OPEN_BUGS = {
-    "overflowing-python-ints",  # object arrays of ints beyond float range: bare OverflowError
-    "columns-not-iterable",  # k_nearest(df, columns=5): bare TypeError
     "rook-tiny-coordinates",  # rook links, border lengths and perimeters are lost below ~1e-162
     "rook-tolerance-tiny-corners",  # rook with a tolerance links corner contacts below ~1e-84
     "rook-tolerance-large-coordinates",  # rook with a tolerance loses partial shared edges above ~1e84
     "cliff-ord-tiny-coordinates",  # Cliff-Ord refuses (coincident centroids) below ~1e-108
     "cliff-ord-large-coordinates",  # Cliff-Ord loses every link above ~1e102 (centroids overflow)
     "cliff-ord-powers-unchecked",  # NaN / negative / infinite powers accepted, links silently dropped
-    "algebra-non-weights",  # w | 3 raises a bare TypeError
-    "set-memory-limit-unchecked",  # set_memory_limit(-1 / 0 / "x" / 1.5 / 2**70): bare errors; True taken as 1 byte
-    "symmetrize-mean-subnormal",  # symmetrize("mean") silently drops one-way links of the smallest weights
-    "drop-islands-self-linked",  # drop_islands keeps units whose only link is to themselves
-    "weights-constructor-bare-errors",  # Weights(...) with text / None / 2**64 / complex buffers: bare errors
-    "weights-constructor-casts-silently",  # Weights(...) truncates fractional positions, reads bool / text weights
-    "spectral-radius-small-blocks",  # a cycle whose radius is below ~1e-16 of the largest weight gives 0
-    "multiindex-ids",  # a MultiIndex as ids (or as a DataFrame's index): bare NotImplementedError
 }
 
 

@@ -366,23 +366,16 @@ def test_builders_take_multiindex_ids(pts, data):
 # ---------------------------------------------------------------------------
 # regressions: minimal cases of open bugs
 # ---------------------------------------------------------------------------
-@pytest.mark.xfail(
-    strict=True, raises=OverflowError, reason="vicino bug: Python ints beyond float range raise a bare OverflowError"
-)
-def test_bug_python_int_beyond_float_range_as_coordinate():
+def test_regression_python_int_beyond_float_range_as_coordinate():
     refused(attempt(vicino.k_nearest, [[2**1024, 0.0], [0.0, 0.0], [1.0, 1.0]], 1))
 
 
-@pytest.mark.xfail(
-    strict=True, raises=NotImplementedError, reason="vicino bug: MultiIndex ids raise NotImplementedError"
-)
-def test_bug_multiindex_ids():
+def test_regression_multiindex_ids():
     ids = pd.MultiIndex.from_tuples([("a", 1), ("a", 2), ("b", 1)])
     w = vicino.k_nearest(np.array([[0.0, 0.0], [1.0, 0.0], [3.0, 0.0]]), 1, ids=ids)
     assert w.ids.equals(ids)
 
 
-@pytest.mark.xfail(strict=True, raises=TypeError, reason="vicino bug: columns=5 raises a bare TypeError")
-def test_bug_columns_that_are_not_a_pair():
+def test_regression_columns_that_are_not_a_pair():
     df = pd.DataFrame({"x": [0.0, 1.0, 2.0], "y": [0.0, 1.0, 2.0]})
     refused(attempt(vicino.k_nearest, df, 1, columns=5))

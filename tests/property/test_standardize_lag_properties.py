@@ -186,9 +186,6 @@ def test_lag_refuses_invalid_values(m, data):
 # ---------------------------------------------------------------------------
 # regressions: minimal cases of open bugs
 # ---------------------------------------------------------------------------
-@pytest.mark.xfail(
-    strict=True, raises=OverflowError, reason="vicino bug: Python ints beyond float range raise a bare OverflowError"
-)
-def test_bug_python_int_beyond_float_range_as_value():
+def test_regression_python_int_beyond_float_range_as_value():
     w = vicino.from_matrix(np.array([[0.0, 1.0], [1.0, 0.0]]))
     refused(attempt(w.lag, [2**1024, 0]))

@@ -318,13 +318,21 @@ pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Result<Csr> {
         || (),
         |_, i, cols, vals| {
             let ((ac, av), (bc, bv)) = (w.row(i), tv.row(i));
+            let mut faint = None;
             merge_rows(ac, av, bc, bv, |c, x, y| {
                 let v = match (x.map(|x| x.1), y) {
                     (Some(x), Some(y)) => match how {
                         Symmetrize::Union => x.max(y),
                         Symmetrize::Intersection => x.min(y),
-                        // halves first: (x + y) / 2 could overflow
-                        Symmetrize::Mean => 0.5 * x + 0.5 * y,
+                        // the sum halved is exact for subnormals; halves first only if the sum overflows
+                        Symmetrize::Mean => {
+                            let sum = x + y;
+                            if sum.is_finite() {
+                                0.5 * sum
+                            } else {
+                                0.5 * x + 0.5 * y
+                            }
+                        }
                     },
                     (Some(v), None) | (None, Some(v)) => match how {
                         Symmetrize::Union => v,
@@ -336,9 +344,20 @@ pub fn symmetrize(w: CsrRef<'_>, how: Symmetrize) -> Result<Csr> {
                 if v > 0.0 {
                     cols.push(c);
                     vals.push(v);
+                } else if how == Symmetrize::Mean {
+                    // half of the smallest subnormal weight rounds to 0
+                    faint = Some(c);
                 }
             });
-            Ok(())
+            match faint {
+                Some(c) => Err(Error::WeightOutOfRange {
+                    what: "mean weight",
+                    link: Link(i, c as usize),
+                    value: 0.0,
+                    advice: "the one-way weight is too small to halve; rescale the weights first",
+                }),
+                None => Ok(()),
+            }
         },
     )?;
     Ok(Csr::from_parts(w.n(), parts))

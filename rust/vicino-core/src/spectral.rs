@@ -281,10 +281,15 @@ fn strong_components(w: CsrRef<'_>) -> (Vec<usize>, usize) {
     (label, count)
 }
 
-/// Collatz-Wielandt power iteration on B = W + I for one irreducible block.
+/// Collatz-Wielandt power iteration on B = W + c I for one irreducible block
+/// (c = 1, or the block's smallest row sum when that is below 1).
 /// Returns (lower, upper) bounds of rho, or an error when they do not meet.
 fn block_radius(w: CsrRef<'_>, floor: f64, guard: &Guard) -> Result<(f64, f64, usize)> {
     let n = w.n();
+    // the shift: 1 for weights near 1 (the moderated scale), smaller for a block
+    // of faint links, whose radius would otherwise drown in the shift's rounding
+    let least = w.row_sums().into_iter().fold(f64::INFINITY, f64::min);
+    let c = if least > 0.0 { least.min(1.0) } else { 1.0 };
     let mut x = vec![1.0; n];
     let (mut lo, mut hi) = (0.0, f64::INFINITY);
     for it in 1..=MAX_POWER {
@@ -294,13 +299,13 @@ fn block_radius(w: CsrRef<'_>, floor: f64, guard: &Guard) -> Result<(f64, f64, u
         let mut y = lag_unchecked(w, &x, 1);
         let (mut l, mut u) = (f64::INFINITY, 0.0f64);
         for i in 0..n {
-            y[i] += x[i];
+            y[i] += c * x[i];
             let r = y[i] / x[i];
             l = l.min(r);
             u = u.max(r);
         }
-        lo = f64::max(lo, l - 1.0);
-        hi = f64::min(hi, u - 1.0);
+        lo = f64::max(lo, l - c);
+        hi = f64::min(hi, u - c);
         // done when the bounds meet, or when this block cannot beat the best so far
         if hi - lo <= POWER_TOL * hi || hi <= floor {
             return Ok((lo, hi, it));

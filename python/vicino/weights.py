@@ -20,10 +20,10 @@ from ._ids import examples, id_differences, is_unit_key, make_ids
 from ._values import as_values
 from .errors import (
     IdError,
-    InvalidTypeError,
     InvalidMatrixError,
     InvalidParameterError,
     InvalidParameterTypeError,
+    InvalidTypeError,
     VicinoError,
 )
 from .geometry import unit_locations

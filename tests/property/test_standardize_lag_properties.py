@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-import pytest
 from _oracles import DBL_MAX, DBL_TINY, is_acyclic, islands, lag_reference, spectral_radius, standardized
 from _strategies import (
     MODERATE_STYLES,

@@ -18,10 +18,15 @@ SHOW = 5  # how many ids a message names
 MARK = "\x01"  # encloses the number of a marker in a core message template
 
 
+def show(x: Any) -> str:
+    """An id as a message shows it: NumPy scalars as the Python values they hold."""
+    return repr(x.item() if isinstance(x, np.generic) else x)
+
+
 def examples(items: Any, limit: int = SHOW) -> str:
     """Format the first few items of a list for a message."""
     items = list(items)
-    shown = ", ".join(repr(x) for x in items[:limit])
+    shown = ", ".join(show(x) for x in items[:limit])
     more = f" and {len(items) - limit} more" if len(items) > limit else ""
     return shown + more
 
@@ -96,7 +101,7 @@ def _phrase(
     known = ids is not None and all(0 <= p < len(ids) for p in positions)
     if known:
         assert ids is not None
-        names = [repr(ids[p]) for p in positions]
+        names = [show(ids[p]) for p in positions]
     else:
         names = [str(p) for p in positions]
     if kind == "unit":

@@ -14,7 +14,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from ._ids import examples
+from ._ids import examples, show
 
 LEVELS = ("problem", "warning", "note", "ok")
 DENSE_SHARE = 0.5  # a warning when units neighbour more than this share of all others, on average
@@ -201,7 +201,7 @@ class Audit:
                 "note",
                 "symmetry",
                 (
-                    f"{head}; the largest |w_ij - w_ji| is {value:.4g}, between ids {a!r} and {b!r}. Many "
+                    f"{head}; the largest |w_ij - w_ji| is {value:.4g}, between ids {show(a)} and {show(b)}. Many "
                     "estimators accept asymmetric weights; use symmetrize() if yours needs symmetric ones."
                 ),
             )

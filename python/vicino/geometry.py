@@ -209,7 +209,7 @@ def as_points(points, *, ids=None, columns=None) -> tuple[np.ndarray, pd.Index]:
             f"got shape {xy.shape}"
         )
     if xy.shape[0] == 0:
-        raise InvalidInputError("no points were given; pass at least two locations")
+        raise InvalidInputError("no points were given; pass at least one location")
     units = make_ids(ids, xy.shape[0], index)
     return np.ascontiguousarray(xy, dtype=np.float64), units
 
@@ -255,7 +255,7 @@ def as_polygons(polygons, *, ids=None):
     values, index = _geometry_values(polygons)
     n = len(values)
     if n == 0:
-        raise InvalidInputError("no polygons were given; pass at least two units")
+        raise InvalidInputError("no polygons were given; pass at least one unit")
     units = make_ids(ids, n, index)
     try:
         kinds = shapely.get_type_id(values)  # -1 for None

@@ -354,7 +354,9 @@ class Weights:
             Boots 1999). ``none``: unchanged.
         islands : {"raise", "keep"}
             Units without neighbours raise :class:`IslandError` by default;
-            ``"keep"`` leaves their rows empty (their lag is 0).
+            ``"keep"`` leaves their rows as they are: empty (their lag is 0),
+            or, for a unit linked only to itself, that one link scaled (its
+            lag is its own value under row standardization).
         """
         choice(method, "standardization", STANDARDIZATIONS)
         choice(islands, "islands policy", ("raise", "keep"))

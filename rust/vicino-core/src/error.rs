@@ -157,7 +157,7 @@ impl Units {
 /// Everything the core can refuse.
 #[derive(Debug, Clone, PartialEq, Error)]
 pub enum Error {
-    #[error("no units were given; pass at least two locations")]
+    #[error("no units were given; pass at least one location")]
     Empty,
     #[error("coordinates must come as pairs: got {len} numbers, which is not a multiple of 2")]
     OddCoordinates { len: usize },

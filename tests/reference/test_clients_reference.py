@@ -34,7 +34,7 @@ write.csv(data.frame(id = ids, lag = sprintf("%.17g", lag)), args[4], row.names 
 
 OCTAVE_SCRIPT = r"""
 W = spconvert(load("{weights}"));
-ids = textscan(fopen("{ids}"), "%s", "HeaderLines", 1, "Delimiter", "\n"){{1}};
+f = fopen("{ids}"); c = textscan(f, "%s", "HeaderLines", 1, "Delimiter", "\n"); fclose(f); ids = c{{1}};
 x = load("{values}");
 lag = W * x;
 fid = fopen("{out}", "w"); fprintf(fid, "%.17g\n", lag); fclose(fid);
@@ -113,3 +113,15 @@ def test_trailing_islands_need_the_closing_line(tmp_path):
     )
     assert done.returncode == 0, done.stderr
     assert done.stdout.split()[:2] == ["3", "3"]  # reference: Octave spconvert keeps the island row
+
+
+def test_the_readme_shows_the_lines_these_tests_run():
+    from pathlib import Path
+
+    readme = (Path(__file__).parents[2] / "README.md").read_text()
+    for line in ('W <- readMM("w.mtx")', 'ids <- read.csv("w.mtx.ids.csv", colClasses = "character")[[1]]'):
+        assert line.replace('"w.mtx"', "args[1]").replace('"w.mtx.ids.csv"', "args[2]") in R_SCRIPT
+        assert line in readme
+    octave = OCTAVE_SCRIPT.format(weights="w.txt", ids="w.txt.ids.csv", values="", out="")
+    for line in ('W = spconvert(load("w.txt"));', 'f = fopen("w.txt.ids.csv"); c = textscan('):
+        assert line in octave and line in readme

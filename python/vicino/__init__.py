@@ -11,7 +11,18 @@ from importlib.metadata import PackageNotFoundError, version
 
 from ._gateway import get_memory_limit, set_memory_limit
 from .audit import Audit, Components, Finding
-from .build import EARTH_RADIUS_KM, cliff_ord, contiguity, from_matrix, k_nearest, within_distance
+from .build import (
+    EARTH_RADIUS_KM,
+    cliff_ord,
+    contiguity,
+    from_edges,
+    from_matrix,
+    from_networkx,
+    inverse_distance,
+    k_nearest,
+    kernel_weights,
+    within_distance,
+)
 from .errors import (
     ConvergenceError,
     DuplicateLocationWarning,
@@ -65,9 +76,13 @@ __all__ = [
     "Weights",
     "cliff_ord",
     "contiguity",
+    "from_edges",
     "from_matrix",
+    "from_networkx",
     "get_memory_limit",
+    "inverse_distance",
     "k_nearest",
+    "kernel_weights",
     "moran",
     "read",
     "set_memory_limit",

@@ -22,7 +22,9 @@ __all__ = [
     "from_edges",
     "get_memory_limit",
     "health",
+    "inverse_distance",
     "k_nearest",
+    "kernel_weights",
     "lag_columns",
     "lag_vector",
     "moran",
@@ -141,3 +143,12 @@ def read_matrix_market(path: str) -> _File: ...
 def write_matrix_market(path: str, w: _W, record: str) -> bool: ...
 def read_triplet(path: str) -> _File: ...
 def write_triplet(path: str, w: _W, record: str) -> None: ...
+
+_Kernel = Literal["uniform", "triangular", "epanechnikov", "quartic", "bisquare", "gaussian"]
+
+def inverse_distance(
+    xy: _F, metric: _Metric, power: float, cutoff: tuple[str, float], floor: float | None, coincident: str
+) -> tuple[_Csr, _F, int]: ...
+def kernel_weights(
+    xy: _F, metric: _Metric, kernel: _Kernel, bandwidth: tuple[str, float], self_weight: bool
+) -> tuple[_Csr, _F, int]: ...

@@ -110,6 +110,22 @@ def within_distance(xy: Any, radius: float, metric: str, ids: pd.Index) -> tuple
     return _owned_csr(csr), dup
 
 
+def inverse_distance(
+    xy: Any, metric: str, power: float, cutoff: tuple[str, float], floor: float | None, coincident: str, ids: pd.Index
+) -> tuple[Csr, Floats, int]:
+    """Inverse-distance weights: ((indptr, indices, weights), distances, units sharing a location)."""
+    csr, dist, dup = _run(_core.inverse_distance, ids, frozen(xy).reshape(-1), metric, power, cutoff, floor, coincident)
+    return _owned_csr(csr), owned(dist), dup
+
+
+def kernel_weights(
+    xy: Any, metric: str, kernel: str, bandwidth: tuple[str, float], self_weight: bool, ids: pd.Index
+) -> tuple[Csr, Floats, int]:
+    """Kernel weights: ((indptr, indices, weights), distances, units sharing a location)."""
+    csr, dist, dup = _run(_core.kernel_weights, ids, frozen(xy).reshape(-1), metric, kernel, bandwidth, self_weight)
+    return _owned_csr(csr), owned(dist), dup
+
+
 def validate(n: int, indptr: Any, indices: Any, data: Any, ids: pd.Index | None) -> tuple[Ints, Ints, Floats]:
     """Snapshots of CSR buffers after the full check (canonical, weights finite and positive)."""
     p, i, d = frozen(indptr, np.int64), frozen(indices, np.int64), frozen(data)

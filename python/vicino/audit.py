@@ -264,7 +264,7 @@ class Audit:
                 ),
             )
         origin = self._origin
-        if origin is not None and origin.action == "from_matrix":
+        if origin is not None and origin.action in ("from_matrix", "from_edges", "from_networkx"):
             network = bool(origin.params.get("network"))
             yield Finding(
                 "warning" if network else "note",

@@ -15,12 +15,14 @@ from ._ids import examples, id_differences, make_ids
 from .errors import (
     DuplicateLocationWarning,
     IdError,
+    InvalidInputError,
     InvalidMatrixError,
     InvalidParameterError,
     InvalidTypeError,
+    InvalidValuesError,
 )
 from .geometry import as_points, as_polygons
-from .weights import Step, Weights, built
+from .weights import Step, Weights, built, core_matrix
 
 Metric = Literal["euclidean", "great_circle"]
 METRICS = ("euclidean", "great_circle")
@@ -29,15 +31,19 @@ CONTIGUITY_WEIGHTS = ("binary", "border_length")
 EARTH_RADIUS_KM = core.EARTH_RADIUS_KM
 
 
-def _from_search(result: tuple[core.Csr, int], ids: pd.Index, step: Step) -> Weights:
-    (indptr, indices, distances), duplicates = result
+def _warn_duplicates(duplicates: int, stacklevel: int = 4) -> None:
     if duplicates:
         warnings.warn(
             f"{duplicates} units share their location with at least one other unit; they are at "
             "distance 0 of each other and ties are broken by position (lower first)",
             DuplicateLocationWarning,
-            stacklevel=3,
+            stacklevel=stacklevel,
         )
+
+
+def _from_search(result: tuple[core.Csr, int], ids: pd.Index, step: Step) -> Weights:
+    (indptr, indices, distances), duplicates = result
+    _warn_duplicates(duplicates)
     ones = np.ones(len(indices))
     return built((indptr, indices, ones), ids, (step,), links={"distance": distances}, duplicates=duplicates)
 
@@ -91,6 +97,343 @@ def within_distance(
     xy, units = as_points(points, ids=ids, columns=columns)
     result = core.within_distance(xy, radius, metric, units)
     return _from_search(result, units, Step("within_distance", {"radius": radius, "metric": metric}))
+
+
+def inverse_distance(
+    points: Any,
+    *,
+    power: float = 1.0,
+    radius: float | None = None,
+    k: int | None = None,
+    metric: Metric = "euclidean",
+    ids: Any = None,
+    columns: Any = None,
+    coincident: Literal["error", "drop"] = "error",
+    min_distance: float | None = None,
+) -> Weights:
+    """Inverse-distance weights: w_ij = 1 / d_ij^power.
+
+    Parameters
+    ----------
+    points : array-like (n, 2), DataFrame, or point geometries
+        Locations, as :func:`k_nearest` takes them.
+    power : float
+        The exponent p >= 0 (1: inverse distance, 2: the gravity form).
+    radius : float, optional
+        Link only units within this distance (inclusive).
+    k : int, optional
+        Link each unit to its k nearest. Give at most one of ``radius`` and
+        ``k``; with neither every unit is linked to every other, which is
+        allowed up to 4,000 units (about 380 MB of links); beyond that the
+        call is refused with the memory it would need.
+    metric : {"euclidean", "great_circle"}
+        As in :func:`k_nearest` (great circle in km).
+    ids, columns
+        As in :func:`k_nearest`.
+    coincident : {"error", "drop"}
+        Units at one location (d = 0) have an infinite weight: an error
+        naming the pair by default; ``"drop"`` leaves such links out.
+    min_distance : float, optional
+        A floor: distances below it count as ``min_distance`` in the weight
+        (the kept per-link ``distance`` stays the true one). With a floor,
+        coincident units are linked with weight ``min_distance**-power``.
+
+    Returns
+    -------
+    Weights
+        Asymmetric with ``k`` in general; ``to_edges()`` lists each link's
+        ``distance``.
+
+    Notes
+    -----
+    The weights are in the units the coordinates imply (1/km for great
+    circle); standardize them before comparing candidates. A weight beyond
+    the range of floating point (huge powers of tiny distances) is refused.
+    """
+    power = real_number(power, "power")
+    choice(metric, "metric", METRICS)
+    choice(coincident, "coincident policy", ("error", "drop"))
+    if radius is not None and k is not None:
+        raise InvalidParameterError("give a radius or k, not both")
+    floor = None if min_distance is None else real_number(min_distance, "min_distance")
+    xy, units = as_points(points, ids=ids, columns=columns)
+    params: dict[str, Any] = {"power": power, "metric": metric}
+    if radius is not None:
+        cutoff: tuple[str, float] = ("radius", real_number(radius, "radius"))
+        params["radius"] = cutoff[1]
+    elif k is not None:
+        kk = whole_number(k, "k", minimum=1)
+        cutoff = ("k", float(kk))
+        params["k"] = kk
+    else:
+        cutoff = ("all", 0.0)
+    if floor is not None:
+        params["min_distance"] = floor
+    if coincident != "error":
+        params["coincident"] = coincident
+    (indptr, indices, data), distances, duplicates = core.inverse_distance(
+        xy, metric, power, cutoff, floor, coincident, units
+    )
+    _warn_duplicates(duplicates, stacklevel=3)
+    return built(
+        (indptr, indices, data),
+        units,
+        (Step("inverse_distance", params),),
+        links={"distance": distances},
+        duplicates=duplicates,
+    )
+
+
+KERNELS = ("uniform", "triangular", "epanechnikov", "quartic", "bisquare", "gaussian")
+
+
+def kernel_weights(
+    points: Any,
+    *,
+    kernel: Literal["uniform", "triangular", "epanechnikov", "quartic", "bisquare", "gaussian"] = "triangular",
+    bandwidth: float | None = None,
+    k: int | None = None,
+    self_weight: bool = True,
+    metric: Metric = "euclidean",
+    ids: Any = None,
+    columns: Any = None,
+) -> Weights:
+    """Kernel weights: w_ij = K(d_ij / h_i) for d_ij <= h_i.
+
+    Parameters
+    ----------
+    points : array-like (n, 2), DataFrame, or point geometries
+        Locations, as :func:`k_nearest` takes them.
+    kernel : {"uniform", "triangular", "epanechnikov", "quartic", "gaussian"}
+        With u = d / h on [0, 1] (Silverman 1986, table 3.1, on the unit
+        interval): uniform 1/2; triangular 1 - u; Epanechnikov
+        3/4 (1 - u^2); quartic (also "bisquare") 15/16 (1 - u^2)^2;
+        Gaussian exp(-u^2 / 2) / sqrt(2 pi), truncated at u = 1 (the
+        bandwidth is the search radius). Silverman writes the Epanechnikov
+        kernel for unit variance, on |t| < sqrt 5 (t = sqrt 5 u).
+    bandwidth : float, optional
+        A fixed bandwidth h > 0 for every unit (coordinate units, or km).
+    k : int, optional
+        An adaptive bandwidth: h_i is the distance from unit i to its k-th
+        nearest neighbour (Fotheringham, Brunsdon and Charlton 2002), so
+        every unit has about k neighbours and the weights are asymmetric.
+        Give exactly one of ``bandwidth`` and ``k``.
+    self_weight : bool
+        Whether each unit also weighs itself, w_ii = K(0) (the usual form
+        for smoothing; Moran's I needs ``self_weight=False``).
+    metric, ids, columns
+        As in :func:`k_nearest`.
+
+    Returns
+    -------
+    Weights
+        ``to_edges()`` lists each link's ``distance`` (0 for the self weight).
+
+    Notes
+    -----
+    A kernel that vanishes at u = 1 (triangular, Epanechnikov, quartic) gives
+    no link to a unit exactly at the bandwidth: a zero weight is no link. A
+    unit whose k-th nearest neighbour shares its location has bandwidth 0 and
+    weighs only the units at its location.
+    """
+    choice(kernel, "kernel", KERNELS)
+    choice(metric, "metric", METRICS)
+    self_weight = flag(self_weight, "self_weight")
+    if (bandwidth is None) == (k is None):
+        raise InvalidParameterError("give exactly one of bandwidth= (fixed) and k= (adaptive)")
+    params: dict[str, Any] = {"kernel": kernel, "metric": metric, "self_weight": self_weight}
+    if bandwidth is not None:
+        h = real_number(bandwidth, "bandwidth")
+        if not (np.isfinite(h) and h > 0):
+            raise InvalidParameterError(f"bandwidth must be a finite number > 0, got {h}")
+        spec: tuple[str, float] = ("fixed", h)
+        params["bandwidth"] = h
+    else:
+        kk = whole_number(k, "k", minimum=1)
+        spec = ("adaptive", float(kk))
+        params["k"] = kk
+    xy, units = as_points(points, ids=ids, columns=columns)
+    (indptr, indices, data), distances, duplicates = core.kernel_weights(xy, metric, kernel, spec, self_weight, units)
+    _warn_duplicates(duplicates, stacklevel=3)
+    return built(
+        (indptr, indices, data),
+        units,
+        (Step("kernel_weights", params),),
+        links={"distance": distances},
+        duplicates=duplicates,
+    )
+
+
+def _edge_column(edges: Any, name: Any, what: str) -> np.ndarray:
+    if isinstance(edges, pd.DataFrame):
+        if name not in edges.columns:
+            raise InvalidInputError(
+                f"the edge table has no column {name!r} for the {what}; it has {examples(list(edges.columns))} "
+                f"(name the column with {what}=...)"
+            )
+        return edges[name].to_numpy()
+    return np.asarray(name)
+
+
+def from_edges(
+    edges: Any,
+    *,
+    source: Any = "source",
+    target: Any = "target",
+    weight: Any = None,
+    ids: Any = None,
+    directed: bool = True,
+    duplicates: Literal["sum", "mean", "max", "error"] = "sum",
+    self_loops: Literal["drop", "keep", "error"] = "drop",
+) -> Weights:
+    """Weights from a network: an edge list of (source, target[, weight]).
+
+    For non-spatial ties (trade flows, commuting, migration, friendship or
+    contact networks). Each edge i -> j is the link from row i to column j.
+
+    Parameters
+    ----------
+    edges : pandas.DataFrame or None
+        The edge table. With ``edges=None``, ``source``, ``target`` and
+        ``weight`` are the columns themselves (arrays).
+    source, target : column name or array
+        The ids at the two ends of each edge (any hashable type).
+    weight : column name or array, optional
+        The tie strength (finite, >= 0); by default every edge weighs 1.
+        Edges weighing 0 are no links and are left out.
+    ids : sequence, optional
+        All units, in row order; units without edges become islands, and an
+        edge naming an id not listed is an error. By default the ids seen in
+        the edges, in order of first appearance.
+    directed : bool
+        False adds each edge both ways (an undirected network).
+    duplicates : {"sum", "mean", "max", "error"}
+        How repeated (source, target) edges merge.
+    self_loops : {"drop", "keep", "error"}
+        Edges from a unit to itself: dropped with a warning (the default),
+        kept, or an error.
+
+    Returns
+    -------
+    Weights
+        Marked as built from a network: its audit carries the exogeneity
+        caution. The ties must be determined independently of the outcome
+        studied (a trade network shaped by the prices you model is not), or
+        the spatial effects estimated with it are biased.
+    """
+    directed = flag(directed, "directed")
+    choice(duplicates, "duplicates policy", ("sum", "mean", "max", "error"))
+    choice(self_loops, "self-loops policy", ("drop", "keep", "error"))
+    if edges is not None and not isinstance(edges, pd.DataFrame):
+        raise InvalidTypeError("edges must be a pandas DataFrame, or None with the columns given as arrays")
+    src = _edge_column(edges, source, "source")
+    dst = _edge_column(edges, target, "target")
+    if src.ndim != 1 or dst.shape != src.shape:
+        raise InvalidInputError(
+            f"source and target must be one-dimensional and of one length, got {src.shape} and {dst.shape}"
+        )
+    if weight is None:
+        w = np.ones(len(src))
+    else:
+        raw = _edge_column(edges, weight, "weight")
+        w = as_edge_weights(raw, len(src))
+    if pd.isna(src).any() or pd.isna(dst).any():
+        bad = int(np.flatnonzero(pd.isna(src) | pd.isna(dst))[0])
+        raise InvalidInputError(f"the edge at row {bad} has a missing source or target; drop it first")
+    units = make_ids(ids, len(ids), None) if ids is not None else pd.Index(pd.unique(np.concatenate([src, dst])))
+    if len(units) == 0:
+        raise InvalidInputError("there are no units: give ids=, or at least one edge")
+    rows, cols = units.get_indexer(pd.Index(src)), units.get_indexer(pd.Index(dst))
+    unknown = pd.Index(src[rows < 0]).append(pd.Index(dst[cols < 0])).unique()
+    if len(unknown):
+        raise IdError(
+            f"{len(unknown)} id(s) in the edges are not in ids: {examples(unknown)}; "
+            "add them to ids or drop those edges"
+        )
+    keep = w > 0  # a zero weight is no link
+    zeros = int((~keep).sum())
+    rows, cols, w = rows[keep], cols[keep], w[keep]
+    order = np.flatnonzero(keep)
+    if not directed:
+        rows, cols, w, order = (
+            np.concatenate([rows, cols]),
+            np.concatenate([cols, rows]),
+            np.concatenate([w, w]),
+            np.concatenate([order, order]),
+        )
+    csr, _, dropped, merged = core.from_edges(
+        len(units), rows, cols, w, duplicates, self_loops, units, edge_name=lambda e: f"the edge at row {order[e]}"
+    )
+    if dropped:
+        warnings.warn(
+            f"{dropped} self-loop(s) (edges from a unit to itself) were dropped; pass self_loops='keep' to keep them",
+            UserWarning,
+            stacklevel=2,
+        )
+    params: dict[str, Any] = {"edges": len(src), "directed": directed, "network": True}
+    if merged:
+        params["duplicates"] = f"{merged} merged ({duplicates})"
+    if dropped:
+        params["self_loops_dropped"] = dropped
+    if zeros:
+        params["zero_weights_dropped"] = zeros
+    return built(csr, units, (Step("from_edges", params),))
+
+
+def as_edge_weights(raw: np.ndarray, m: int) -> np.ndarray:
+    """Edge weights as float64: finite and >= 0, refused otherwise with the edge named."""
+    try:
+        w = np.asarray(raw, dtype=np.float64)
+    except (TypeError, ValueError):
+        raise InvalidTypeError("the edge weights are not all numbers; convert them first (pd.to_numeric)") from None
+    if w.shape != (m,):
+        raise InvalidInputError(f"the weights must hold one number per edge ({m}), got shape {w.shape}")
+    bad = np.flatnonzero(~np.isfinite(w) | (w < 0))
+    if len(bad):
+        raise InvalidValuesError(
+            f"the edge at row {int(bad[0])} weighs {w[bad[0]]}; edge weights must be finite and >= 0 "
+            f"({len(bad)} such edge(s))"
+        )
+    return w
+
+
+def from_networkx(graph: Any, *, weight: str | None = "weight", ids: Any = None) -> Weights:
+    """Weights from a networkx graph: nodes are units (in node order), edges are links.
+
+    An undirected graph gives links both ways. ``weight`` names the edge
+    attribute holding tie strength (edges without it weigh 1; None: every edge
+    weighs 1). Other options as in :func:`from_edges`, which this calls.
+    """
+    try:
+        import networkx as nx
+    except ImportError:
+        raise InvalidTypeError("from_networkx needs networkx: pip install networkx") from None
+    if not isinstance(graph, nx.Graph):
+        raise InvalidTypeError(f"graph must be a networkx graph, got {type(graph).__name__}")
+    if graph.is_multigraph():
+        raise InvalidInputError("multigraphs are not read: merge parallel edges first (nx.DiGraph(graph))")
+    nodes = list(graph.nodes) if ids is None else ids
+    pairs = list(graph.edges(data=True))
+    src = np.empty(len(pairs), dtype=object)
+    dst = np.empty(len(pairs), dtype=object)
+    src[:] = [a for a, _, _ in pairs]
+    dst[:] = [b for _, b, _ in pairs]
+    w = np.array([d.get(weight, 1.0) if weight is not None else 1.0 for _, _, d in pairs], dtype=float)
+    out = from_edges(
+        None,
+        source=src,
+        target=dst,
+        weight=w,
+        ids=nodes,
+        directed=graph.is_directed(),
+        duplicates="error",
+        self_loops="keep",
+    )
+    _, indptr, indices, data = core_matrix(out)
+    step = Step(
+        "from_networkx", {"nodes": len(out.ids), "edges": len(pairs), "directed": graph.is_directed(), "network": True}
+    )
+    return built((indptr, indices, data), out.ids, (step,))
 
 
 def _frame_matrix(frame: pd.DataFrame) -> tuple[np.ndarray, pd.Index]:

@@ -380,6 +380,26 @@ class Weights:
         arr, wrap = aligned_values(self, values, allow_2d=True)
         return wrap(core.lag(self._core(), arr, self._ids))
 
+    def to_networkx(self) -> Any:
+        """The weights as a ``networkx.DiGraph``: ids as nodes, links as edges.
+
+        Each edge carries its ``weight`` and the builder's per-link facts
+        (``distance``, ``border_length``) as attributes; units without links
+        are nodes without edges. Needs networkx.
+        """
+        try:
+            import networkx as nx
+        except ImportError:
+            raise InvalidTypeError("to_networkx needs networkx: pip install networkx") from None
+        g = nx.DiGraph()
+        g.add_nodes_from(self._ids)
+        e = self.to_edges()
+        facts = [c for c in e.columns if c not in ("source", "target")]
+        g.add_edges_from(
+            (s, t, dict(zip(facts, vals, strict=True))) for s, t, *vals in e.itertuples(index=False, name=None)
+        )
+        return g
+
     # ---- files ---------------------------------------------------------
     def write(self, path: Any, format: Literal["mtx", "triplet", "npz", "csv", "parquet"] | None = None) -> Any:
         """Write the weights to a file that R, MATLAB / Octave or SciPy read, ids included.

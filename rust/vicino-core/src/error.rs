@@ -203,6 +203,11 @@ pub enum Error {
          Cliff-Ord weight is infinite; use distance_power=0 or fix the geometry"
     )]
     CoincidentCentroids { pair: Pair },
+    #[error(
+        "{pair} share one location (distance 0), so their inverse-distance weight is infinite; pass \
+         coincident=\"drop\" to leave such links out, or min_distance= to raise small distances to a floor"
+    )]
+    CoincidentUnits { pair: Pair },
     #[error("k = {k} is not possible with {n} units: k must be at least 1 and at most n - 1")]
     InvalidK { k: usize, n: usize },
     #[error("radius = {radius} is not usable: give a finite number >= 0 in the units of the distance")]

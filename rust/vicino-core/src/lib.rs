@@ -9,6 +9,7 @@
 
 pub mod contiguity;
 pub mod csr;
+pub mod distance_weights;
 pub mod edges;
 pub mod error;
 pub mod frame;

@@ -80,6 +80,7 @@ fn class_name(e: &Error) -> &'static str {
         | UnknownRule { .. }
         | InvalidTolerance { .. }
         | CoincidentCentroids { .. }
+        | CoincidentUnits { .. }
         | InvalidOrder { .. }
         | UnknownOption { .. } => "InvalidParameterError",
         PositionOutOfRange { .. } | RepeatedPosition { .. } => "IdError",

@@ -4,6 +4,7 @@
 
 mod contiguity;
 mod convert;
+mod distance_weights;
 mod edges;
 mod errors;
 mod graph;
@@ -60,6 +61,8 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
         wrap_pyfunction!(graph::undirected_pairs, m)?,
         wrap_pyfunction!(weights::neighbour_counts, m)?,
         wrap_pyfunction!(edges::from_edges, m)?,
+        wrap_pyfunction!(distance_weights::inverse_distance, m)?,
+        wrap_pyfunction!(distance_weights::kernel_weights, m)?,
         wrap_pyfunction!(io::read_matrix_market, m)?,
         wrap_pyfunction!(io::write_matrix_market, m)?,
         wrap_pyfunction!(io::read_triplet, m)?,

@@ -344,23 +344,49 @@ pub fn k_nearest(xy: &[f64], k: usize, metric: Metric, guard: &Guard) -> Result<
 /// assert_eq!(nb.graph.view().counts(), vec![1, 2, 1]);
 /// ```
 pub fn within_distance(xy: &[f64], radius: f64, metric: Metric, guard: &Guard) -> Result<Neighbors> {
-    let p = prepare(xy, metric)?;
     if !(radius >= 0.0) || !radius.is_finite() {
         return Err(Error::InvalidRadius { radius });
     }
+    let p = prepare(xy, metric)?;
+    within_each(&p, |_| radius, guard)
+}
+
+/// Every unit i linked to the units within its own radius `radii[i]`
+/// (inclusive; adaptive bandwidths), self excluded. Not symmetric in
+/// general. Data are distances.
+///
+/// ```
+/// use vicino_core::{Guard, neighbors::{within_radii, Metric}};
+/// let xy = [0.0, 0.0, 1.0, 0.0, 3.0, 0.0];
+/// let nb = within_radii(&xy, &[1.0, 0.5, 2.0], Metric::Euclidean, &Guard::unlimited()).unwrap();
+/// assert_eq!(nb.graph.view().counts(), vec![1, 0, 1]);
+/// ```
+pub fn within_radii(xy: &[f64], radii: &[f64], metric: Metric, guard: &Guard) -> Result<Neighbors> {
+    let p = prepare(xy, metric)?;
+    if radii.len() != p.n() {
+        return Err(Error::LengthMismatch { what: "the radii", expected: p.n(), got: radii.len() });
+    }
+    if let Some(&radius) = radii.iter().find(|r| !(**r >= 0.0 && r.is_finite())) {
+        return Err(Error::InvalidRadius { radius });
+    }
+    within_each(&p, |i| radii[i], guard)
+}
+
+/// The radius search of every unit, radius per unit in world units.
+fn within_each(p: &Prepared<'_>, radius: impl Fn(usize) -> f64 + Sync, guard: &Guard) -> Result<Neighbors> {
     let n = p.n();
-    let r = p.frame.to_local(radius);
+    let r = |i: usize| p.frame.to_local(radius(i));
     let layout = Layout::new(as_pairs(&p.xy));
     const ADVICE: &str = "use a smaller radius, or k_nearest for a fixed number of neighbours";
     const WHAT: &str = "the links within the radius";
-    let parts = with_space(&p, |space| {
+    let parts = with_space(p, |space| {
         // estimate the links from units spread over the map (every s-th in Z-order)
         let step = n.div_ceil(256).max(1);
         let sample: Vec<usize> = layout.order.iter().step_by(step).copied().collect();
         let found: usize = sample
             .par_iter()
             .map_init(Vec::new, |buf, &i| {
-                space.within(i, r, buf);
+                space.within(i, r(i), buf);
                 buf.len()
             })
             .sum();
@@ -371,7 +397,7 @@ pub fn within_distance(xy: &[f64], radius: f64, metric: Metric, guard: &Guard) -
         let links = AtomicUsize::new(0);
         build_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, i, cols, dists| {
             guard.check()?;
-            space.within(i, r, buf);
+            space.within(i, r(i), buf);
             if links.fetch_add(buf.len(), Ordering::Relaxed) + buf.len() > room {
                 return Err(Error::TooLarge {
                     what: WHAT,
@@ -384,7 +410,50 @@ pub fn within_distance(xy: &[f64], radius: f64, metric: Metric, guard: &Guard) -
             Ok(())
         })
     })?;
-    Ok(finish(&p, parts, layout.duplicate_units))
+    Ok(finish(p, parts, layout.duplicate_units))
+}
+
+/// Most units for which [`all_pairs`] links every unit to every other
+/// (about 380 MB of links at the limit).
+pub const ALL_PAIRS_MAX_UNITS: usize = 4_000;
+
+/// Every unit linked to every other, with their distances: O(n^2), refused
+/// above [`ALL_PAIRS_MAX_UNITS`] units with the memory it would need.
+///
+/// ```
+/// use vicino_core::{Guard, neighbors::{all_pairs, Metric}};
+/// let nb = all_pairs(&[0.0, 0.0, 3.0, 4.0, 0.0, 1.0], Metric::Euclidean, &Guard::unlimited()).unwrap();
+/// assert_eq!(nb.graph.view().data(), &[5.0, 1.0, 5.0, 4.242640687119285, 1.0, 4.242640687119285]);
+/// ```
+pub fn all_pairs(xy: &[f64], metric: Metric, guard: &Guard) -> Result<Neighbors> {
+    let p = prepare(xy, metric)?;
+    let n = p.n();
+    let needed = n as f64 * (n as f64 - 1.0) * LINK_BYTES;
+    if n > ALL_PAIRS_MAX_UNITS {
+        return Err(Error::TooLarge {
+            what: "linking every unit to every other",
+            needed,
+            limit: (ALL_PAIRS_MAX_UNITS as f64 * (ALL_PAIRS_MAX_UNITS as f64 - 1.0) * LINK_BYTES) as u64,
+            advice: "above 4,000 units give a cutoff: a radius or k",
+        });
+    }
+    guard.reserve(needed, "linking every unit to every other", "give a cutoff: a radius or k")?;
+    let pts = as_pairs(&p.xy);
+    let parts = build_rows(
+        n,
+        None,
+        n >= 256,
+        || (),
+        |_, i, cols, dists| {
+            guard.check()?;
+            for j in (0..n).filter(|&j| j != i) {
+                cols.push(j as i64);
+                dists.push(p.metric.distance(pts[i], pts[j]));
+            }
+            Ok(())
+        },
+    )?;
+    Ok(finish(&p, parts, Layout::new(pts).duplicate_units))
 }
 
 /// The `k` nearest of each query unit among the target units, itself

@@ -454,3 +454,41 @@ def test_no_ticker_when_quiet_or_not_a_terminal(towns, tmp_path, capsys):
     path, _ = towns
     code, _, err = run(["build", path, tmp_path / "k.mtx", "--k", 3], capsys)  # capsys: stderr is no terminal
     assert code == 0 and err == ""
+
+
+# ---- the README ----------------------------------------------------------------------------------------------------
+def test_readme_command_line_examples_run(tmp_path, capsys, monkeypatch):
+    import re
+    import shlex
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[3] / "README.md").read_text()
+    block = re.search(r"## The command line\n.*?```bash\n(.*?)```", text, re.S)
+    assert block is not None, "the README's command line section moved; update this test"
+    lines = [shlex.split(line, comments=True) for line in block.group(1).splitlines() if line.strip()]
+    assert [words[1] for words in lines] == ["demo", "build", "audit", "lag", "moran", "convert"]
+    monkeypatch.chdir(tmp_path)
+    outputs = {}
+    for words in lines:
+        assert words[0] == "vicino"
+        code, out, err = run(words[1:], capsys)
+        assert code == 0, (words, err)
+        outputs[words[1]] = out
+    # reference: k nearest reaches every unit (k < n)  # common practice
+    assert json.loads(outputs["audit"])["islands"] == []
+    places = pd.read_csv(tmp_path / "demo-out" / "settlements.csv", index_col=0)
+    w = mtx(tmp_path / "k6.mtx").toarray()
+    w /= w.sum(axis=1, keepdims=True)
+    lags = pd.read_csv(tmp_path / "lags.csv")
+    for column in ("cistern_share", "population"):
+        # reference: numpy, row-standardized W @ x on the matrix scipy.io.mmread reads
+        np.testing.assert_allclose(lags[f"{column}_lag"], w @ places[column].to_numpy(), rtol=1e-12)
+    z = places["cistern_share"].to_numpy() - places["cistern_share"].mean()
+    shown = pd.read_csv(io.StringIO(outputs["moran"]))["I"].iloc[0]
+    # reference: Cliff and Ord (1981), I = (n / S0) z'Wz / z'z on the row-standardized matrix
+    assert shown == pytest.approx(len(z) / w.sum() * (z @ w @ z) / (z @ z), rel=1e-12)
+    # the polygon example in the prose parses
+    inline = re.search(r"`(vicino build districts\.gpkg [^`]*)`", text)
+    assert inline is not None
+    args = cli.build_parser().parse_args(shlex.split(inline.group(1))[1:])
+    assert (args.rule, args.id) == ("queen", "name")

@@ -11,11 +11,13 @@ Each settlement of the vale also has a district: the Voronoi cell of the
 settlement, clipped to an invented coastline and with its borders surveyed to
 a 100 m grid (so a few short borders shrink to a corner where four districts
 meet). Each settlement of the skerries stands on its own small islet, which
-touches nothing. The districts need shapely; without it the demo skips them.
+touches nothing.
 
 Every candidate matrix is audited; the islets, islands under contiguity, are
 then linked in by assumption (a ferry to the coast) and the repaired weights
-join the comparison of Moran's I.
+join the comparison of Moran's I. The weights of every candidate are written
+in the formats of :mod:`vicino.io`, with the lines that load them in R and
+Octave.
 """
 
 from __future__ import annotations
@@ -27,6 +29,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import shapely
 
 from .audit import LEVELS
 from .build import cliff_ord, contiguity, k_nearest, within_distance
@@ -85,7 +88,9 @@ REPAIR_CAUTION = (
     "like any other weights; they change Moran's I (section\xa06), so report the unrepaired result beside "
     "it, or study the skerries on their own (drop_islands() removes them)."
 )
-NO_SHAPELY = "Districts skipped: they need shapely (pip install 'vicino[geometry]')."
+NO_MATPLOTLIB = "Pictures skipped: they need matplotlib (pip install 'vicino[plot]')."
+WEIGHTS_DIR = "weights"  # the subfolder of the output folder for the weights files
+FORMATS = ("mtx", "txt", "npz", "csv")  # Matrix Market, 1-based triplets, SciPy, edge table
 
 SURVEY_GRID_KM = 0.1  # district borders are surveyed to this grid
 ISLET_RADIUS_KM = 1.5  # each settlement of the skerries stands on an islet this wide (radius)
@@ -133,8 +138,6 @@ def coastline(seed: int = 7, places: pd.DataFrame | None = None):
     A wobbly ellipse along the valley, scaled so that every settlement of
     the vale lies inside with a margin; the skerries lie far outside.
     """
-    import shapely
-
     if places is None:
         places = settlements(seed)
     vale = places.loc[places["region"] == "Brannock Vale", ["x", "y"]].to_numpy()
@@ -157,8 +160,6 @@ def coastline(seed: int = 7, places: pd.DataFrame | None = None):
 def _polygonal(geoms: np.ndarray) -> np.ndarray:
     """Each geometry as a Polygon, or a MultiPolygon when it has several pieces
     (an overlay may return a one-piece MultiPolygon, or stray lines and points)."""
-    import shapely
-
     for i in np.flatnonzero(shapely.get_type_id(geoms) != 3):
         parts = shapely.get_parts(geoms[i])
         parts = parts[shapely.get_type_id(parts) == 3]
@@ -173,10 +174,8 @@ def districts(seed: int = 7, places: pd.DataFrame | None = None) -> pd.Series:
     A settlement of the vale gets its Voronoi cell clipped to
     :func:`coastline`; each settlement of the skerries gets a small round
     islet of radius ``ISLET_RADIUS_KM``. Borders are snapped to a grid of
-    ``SURVEY_GRID_KM``. Needs shapely.
+    ``SURVEY_GRID_KM``.
     """
-    import shapely
-
     if places is None:
         places = settlements(seed)
     coast = coastline(seed, places)
@@ -225,12 +224,7 @@ def _names(names, width: int = 78) -> str:
 
 
 def _district_section(places: pd.DataFrame, seed: int):
-    """Contiguity of the districts: printed report, weights, and tables (None without shapely)."""
-    try:
-        import shapely
-    except ImportError:
-        print(NO_SHAPELY)
-        return None
+    """Contiguity of the districts: printed report, weights, and tables."""
     shapes = districts(seed, places)
     built = {"queen": contiguity(shapes, "queen"), "rook": contiguity(shapes, "rook")}
     counts = pd.DataFrame(
@@ -423,17 +417,68 @@ def _save_plots(out: Path, queen, repaired, shapes: pd.Series) -> list[str]:
     return list(drawn)
 
 
+def _moran_table(values: pd.Series, weights: dict, permutations: int, seed: int) -> pd.DataFrame:
+    """Moran's I under each candidate, with its inference spelled out in the column labels."""
+    rows = []
+    for name, w in weights.items():
+        r = moran(values, w, permutations=permutations, seed=seed)
+        rows.append(
+            {
+                "weights": name,
+                "I": r.statistic,
+                "E[I]": r.expected,
+                "z, randomization": r.randomization.z,
+                "p, randomization": r.randomization.p_value,
+                "p, permutation": r.permutation.p_value if r.permutation is not None else float("nan"),
+            }
+        )
+    return pd.DataFrame(rows).set_index("weights")
+
+
+def file_stem(name: str) -> str:
+    """The file name of a candidate's weights: ``"queen, repaired"`` -> ``"queen_repaired"``."""
+    return "_".join("".join(c if c.isalnum() else " " for c in name.lower()).split())
+
+
+def _hand_over(out: Path, weights: dict) -> None:
+    """Write each candidate's weights in the formats of vicino.io and print how R and Octave load them."""
+    folder = out / WEIGHTS_DIR
+    folder.mkdir(exist_ok=True)
+    for name, w in weights.items():
+        for suffix in FORMATS:
+            w.write(folder / f"{file_stem(name)}.{suffix}")
+    print(f"Weights as used above (row-standardized), in the subfolder {WEIGHTS_DIR}/:")
+    print(_names(file_stem(name) for name in weights))
+    print(
+        _fill(
+            "each as .mtx (Matrix Market) and .txt (1-based triplets), with their ids beside them in .mtx.ids.csv "
+            "and .txt.ids.csv, as .npz (SciPy, ids inside) and as .csv (an edge table, ids in .csv.ids.csv)."
+        )
+    )
+    stem = file_stem("queen, repaired")
+    print(f"\nTo load the repaired queen weights, from the folder {WEIGHTS_DIR}/:")
+    print("  in R:")
+    print(f'    library(Matrix); W <- readMM("{stem}.mtx")')
+    print(f'    ids <- read.csv("{stem}.mtx.ids.csv", colClasses = "character")[[1]]')
+    print("  in Octave or MATLAB:")
+    print(f'    W = spconvert(load("{stem}.txt"));')
+    print("  in Python:")
+    print(f'    W = vicino.read("{stem}.npz")')
+
+
 def _rule(title: str) -> str:
     return f"\n{title}\n{'-' * len(title)}"
 
 
 def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations: int = 999) -> dict[str, pd.DataFrame]:
-    """Run the demo, print its report and write its tables as CSV to ``out_dir``.
+    """Run the demo, print its report and write its tables, pictures and weights to ``out_dir``.
 
-    Without shapely the districts are skipped (with a message), and so are
-    their tables, the repair and their rows of the Moran table. With
-    matplotlib, pictures of the queen weights before and after repair are
-    saved to ``out_dir`` as PNG too.
+    ``out_dir`` receives the tables as CSV, the pictures of the queen weights
+    before and after repair as PNG (with matplotlib; without it they are
+    skipped with a message), and in its subfolder ``weights`` the
+    row-standardized weights of every candidate as ``.mtx``, ``.txt``,
+    ``.npz`` and ``.csv`` (ids in ``.ids.csv`` sidecars). Nothing is written
+    when ``out_dir`` is None.
     """
     places = settlements(seed)
     print("vicino demo: the Brannock Vale and the Tarrow Skerries (an invented region)")
@@ -462,14 +507,15 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
             print("  Their rows stay empty and their lag is 0; a k-nearest candidate reaches them.")
 
     print(_rule("2. Districts: queen and rook contiguity"))
-    district = _district_section(places, seed)
-    tables = {"settlements": places, "neighbour_counts": counts, "candidates": summary}
-    shapes = None
-    if district is not None:
-        built, contiguity_summary, district_counts, shapes = district
-        candidates.update(built)
-        tables["contiguity"] = contiguity_summary
-        tables["district_counts"] = district_counts
+    built, contiguity_summary, district_counts, shapes = _district_section(places, seed)
+    candidates.update(built)
+    tables = {
+        "settlements": places,
+        "neighbour_counts": counts,
+        "candidates": summary,
+        "contiguity": contiguity_summary,
+        "district_counts": district_counts,
+    }
 
     print(_rule("3. Audit of every candidate"))
     audits = {name: w.audit() for name, w in candidates.items()}
@@ -492,13 +538,9 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     )
 
     print(_rule("4. Repairing the islets of the skerries"))
-    repaired = None
-    if shapes is None:
-        print("Repair skipped: it links the islets of the districts, which need shapely.")
-    else:
-        repaired, audits["queen, repaired"], repairs = _repair_section(places, built["queen"], shapes)
-        candidates["queen, repaired"] = repaired
-        tables["repairs"] = repairs
+    repaired, audits["queen, repaired"], repairs = _repair_section(places, built["queen"], shapes)
+    candidates["queen, repaired"] = repaired
+    tables["repairs"] = repairs
     tables["audit"] = _findings(audits)
 
     print(_rule("5. Row-standardized weights and spatial lags"))
@@ -511,32 +553,25 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     print(f"(first 8 settlements; all {len(standardized)} lags are in lags.csv)")
 
     print(_rule("6. Moran's I of the cistern share under each candidate"))
-    rows = []
-    for name, w in standardized.items():
-        r = moran(places["cistern_share"], w, permutations=permutations, seed=seed)
-        rows.append(
-            {
-                "weights": name,
-                "I": r.statistic,
-                "E[I]": r.expected,
-                "z (randomization)": r.randomization.z,
-                "p (randomization)": r.randomization.p_value,
-                "p (permutation)": r.permutation.p_value if r.permutation is not None else float("nan"),
-            }
+    table = _moran_table(places["cistern_share"], standardized, permutations, seed)
+    print(table.drop(columns="E[I]").to_string(float_format=lambda v: f"{v:.4g}"))
+    print()
+    print(f"E[I] = -1/(n - 1) = {-1 / (len(places) - 1):.4g} under every candidate.")
+    print(
+        _fill(
+            "z, randomization: the z-score of I under random assignment of the observed values to the "
+            "units; p, randomization: its two-sided normal p-value; p, permutation: the share of "
+            f"{permutations}\xa0random permutations at least as extreme (the smallest possible is "
+            f"{1 / (permutations + 1):.4g})."
         )
-    table = pd.DataFrame(rows).set_index("weights")
-    short = {"z (randomization)": "z (rand)", "p (randomization)": "p (rand)", "p (permutation)": "p (perm)"}
-    print(table.rename(columns=short).to_string(float_format=lambda v: f"{v:.4g}"))
-    print("\nrand: under randomization; perm: from permutations")
-    print(f"({permutations} permutations: the smallest possible p is {1 / (permutations + 1):.4g})")
-    if district is not None:
-        print("queen, rook and Cliff-Ord: the districts, row-standardized, islands kept")
-        print(
-            _fill(
-                "queen, repaired: queen with the islets linked in by assumption (section\xa04), "
-                "row-standardized, no islands left"
-            )
+    )
+    print("queen, rook and Cliff-Ord: the districts, row-standardized, islands kept")
+    print(
+        _fill(
+            "queen, repaired: queen with the islets linked in by assumption (section\xa04), "
+            "row-standardized, no islands left"
         )
+    )
 
     print(_rule("Reading the results"))
     print(_fill(CAUTIONS))
@@ -549,10 +584,11 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
             df.to_csv(out / f"{name}.csv")
         print(f"\nTables written to {out.resolve()}:")
         print(_names(f"{n}.csv" for n in tables))
-        plots = (
-            _save_plots(out, built["queen"], repaired, shapes) if repaired is not None and shapes is not None else []
-        )
+        plots = _save_plots(out, built["queen"], repaired, shapes)
         if plots:
-            print("Pictures of the queen weights, before and after repair:")
+            print("Pictures of the queen weights (counts; links before and after repair):")
             print(_names(plots))
+        else:
+            print(NO_MATPLOTLIB)
+        _hand_over(out, standardized)
     return tables

@@ -58,7 +58,7 @@ def _points_from_geometry(values, index: pd.Index) -> np.ndarray:
     try:
         import shapely
     except ImportError as exc:  # pragma: no cover - shapely is present when geometries are
-        raise InvalidTypeError("point geometries need shapely: pip install 'vicino[geometry]'") from exc
+        raise InvalidTypeError("point geometries need shapely (a dependency of vicino): pip install shapely") from exc
     geoms = np.asarray(values, dtype=object)
     if geoms.ndim != 1:
         raise InvalidInputError("geometries must be a one-dimensional collection, one per unit")
@@ -251,7 +251,7 @@ def as_polygons(polygons, *, ids=None):
     try:
         import shapely
     except ImportError as exc:  # pragma: no cover
-        raise InvalidTypeError("polygons need shapely: pip install 'vicino[geometry]'") from exc
+        raise InvalidTypeError("polygons need shapely (a dependency of vicino): pip install shapely") from exc
     values, index = _geometry_values(polygons)
     n = len(values)
     if n == 0:

@@ -72,7 +72,8 @@ def _reference_adjacency(shapes: np.ndarray):
 
 
 def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
-    shapely = pytest.importorskip("shapely")
+    import shapely
+
     tables = demo.run(tmp_path, permutations=19)
     capsys.readouterr()
     places = tables["settlements"]
@@ -116,7 +117,8 @@ def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
 
 
 def test_islets_are_exactly_the_skerries_and_islands(tmp_path, capsys):
-    shapely = pytest.importorskip("shapely")
+    import shapely
+
     tables = demo.run(tmp_path, permutations=19)
     out = capsys.readouterr().out
     places = tables["settlements"]
@@ -136,7 +138,6 @@ def test_islets_are_exactly_the_skerries_and_islands(tmp_path, capsys):
 
 
 def test_moran_table_has_the_contiguity_rows(tmp_path, capsys):
-    pytest.importorskip("shapely")
     tables = demo.run(tmp_path, permutations=19)
     capsys.readouterr()
     places = tables["settlements"]
@@ -178,7 +179,6 @@ def _audit_rows(out: str) -> dict[str, list[str]]:
 
 def test_demo_audits_every_candidate(tmp_path, capsys):
     nx = pytest.importorskip("networkx")
-    pytest.importorskip("shapely")
     tables = demo.run(tmp_path, permutations=19)
     out = capsys.readouterr().out
     places = tables["settlements"]
@@ -218,7 +218,8 @@ def test_demo_audits_every_candidate(tmp_path, capsys):
 
 def test_repaired_queen_has_no_islands_and_one_component(tmp_path, capsys):
     nx = pytest.importorskip("networkx")
-    shapely = pytest.importorskip("shapely")
+    import shapely
+
     tables = demo.run(tmp_path, permutations=19)
     capsys.readouterr()
     places = tables["settlements"]
@@ -281,7 +282,6 @@ def test_repaired_queen_has_no_islands_and_one_component(tmp_path, capsys):
 
 def test_demo_saves_plots_with_matplotlib(tmp_path, capsys):
     pytest.importorskip("matplotlib")
-    pytest.importorskip("shapely")
     demo.run(tmp_path, permutations=19)
     out = capsys.readouterr().out
     for name in ("queen_counts.png", "queen_links.png", "queen_repaired_links.png"):
@@ -298,18 +298,78 @@ def test_demo_without_out_dir_writes_nothing(tmp_path, capsys, monkeypatch):
     assert "audit" in tables
 
 
-def test_demo_skips_the_districts_without_shapely(tmp_path, capsys, monkeypatch):
-    monkeypatch.setitem(sys.modules, "shapely", None)  # makes `import shapely` fail
+def test_demo_without_matplotlib_runs_whole_and_says_why_there_are_no_pictures(tmp_path, capsys, monkeypatch):
+    for name in ("matplotlib", "matplotlib.figure"):
+        monkeypatch.setitem(sys.modules, name, None)  # makes `from matplotlib.figure import ...` fail
     tables = demo.run(tmp_path, permutations=19)
     out = capsys.readouterr().out
-    assert demo.NO_SHAPELY in out
-    assert list(tables["moran"].index) == ["6 nearest", "10 nearest", "within 15 km"]
-    assert not (tmp_path / "contiguity.csv").exists() and (tmp_path / "moran.csv").exists()
-    # the points are still audited; the repair of the islets needs the districts
-    assert "Repair skipped" in out and "Weights audit: " not in out
-    audit = pd.read_csv(tmp_path / "audit.csv")
-    assert list(audit["weights"].unique()) == ["6 nearest", "10 nearest", "within 15 km"]
-    assert not (tmp_path / "repairs.csv").exists()
+    assert demo.NO_MATPLOTLIB in out
+    assert not list(tmp_path.glob("*.png"))
+    # every section still runs: districts, repair, and their rows of the Moran table
+    assert list(tables["moran"].index)[-4:] == ["queen", "rook", "Cliff-Ord", "queen, repaired"]
+    assert (tmp_path / "repairs.csv").exists() and (tmp_path / "weights" / "queen_repaired.mtx").exists()
+
+
+def test_demo_writes_the_weights_of_every_candidate_for_r_octave_and_scipy(tmp_path, capsys):
+    import scipy.io
+    import scipy.sparse as sp
+
+    tables = demo.run(tmp_path, permutations=19)
+    out = capsys.readouterr().out
+    places = tables["settlements"]
+    folder = tmp_path / demo.WEIGHTS_DIR
+    stems = [demo.file_stem(name) for name in tables["moran"].index]
+    assert stems == ["6_nearest", "10_nearest", "within_15_km", "queen", "rook", "cliff_ord", "queen_repaired"]
+    n = len(places)
+    for stem in stems:
+        # reference: scipy.io.mmread reads Matrix Market (Boisvert, Pozo and Remington 1996)
+        m = sp.csr_array(scipy.io.mmread(folder / f"{stem}.mtx"))
+        # reference: numpy loadtxt of the 1-based triplets, assembled by scipy as Octave's spconvert does
+        i, j, v = np.loadtxt(folder / f"{stem}.txt", comments="%", unpack=True)
+        tri = sp.csr_array(sp.coo_array((v, (i.astype(int) - 1, j.astype(int) - 1)), shape=(n, n)))
+        npz = sp.load_npz(folder / f"{stem}.npz")  # reference: scipy.sparse.load_npz
+        edges = pd.read_csv(folder / f"{stem}.csv", dtype={"source": str, "target": str})  # reference: pandas
+        at = places.index.get_indexer
+        table = sp.csr_array((edges["weight"], (at(edges["source"]), at(edges["target"]))), shape=(n, n))
+        for other in (tri, npz, table):
+            assert abs(m - other).max() == 0, stem
+        # reference: pandas reads the ids sidecars; they are the settlements in row order
+        for suffix in ("mtx", "txt", "csv"):
+            ids = pd.read_csv(folder / f"{stem}.{suffix}.ids.csv", dtype=str)
+            assert list(ids.columns) == ["id:str"] and list(ids.iloc[:, 0]) == list(places.index)
+        # row-standardized, islands kept: rows sum to 1 or are empty  # common practice
+        sums = np.asarray(m.sum(axis=1)).ravel()
+        assert np.allclose(sums[sums > 0], 1.0, rtol=1e-12)
+    # reference: shapely STRtree intersects (queen), rows divided by their sums with numpy
+    i, j = _reference_adjacency(demo.districts(7).to_numpy())
+    w = np.zeros((n, n))
+    w[i, j] = 1.0
+    rows = w.sum(axis=1)
+    w[rows > 0] /= rows[rows > 0, None]
+    queen = scipy.io.mmread(folder / "queen.mtx").toarray()
+    np.testing.assert_allclose(queen, w, rtol=1e-15, atol=0)
+    # the lines that load them name files that exist, in the R and Octave spellings
+    stem = "queen_repaired"
+    assert f'library(Matrix); W <- readMM("{stem}.mtx")' in out
+    assert f'ids <- read.csv("{stem}.mtx.ids.csv", colClasses = "character")[[1]]' in out
+    assert f'W = spconvert(load("{stem}.txt"));' in out
+    for name in (f"{stem}.mtx", f"{stem}.mtx.ids.csv", f"{stem}.txt", f"{stem}.npz"):
+        assert (folder / name).exists()
+
+
+def test_moran_labels_spell_out_the_inference(tmp_path, capsys):
+    tables = demo.run(tmp_path, permutations=19)
+    out = capsys.readouterr().out
+    labels = ["z, randomization", "p, randomization", "p, permutation"]
+    assert [c for c in tables["moran"].columns if c in labels] == labels
+    section = out.split("6. Moran's I", 1)[1].split("Reading the results", 1)[0]
+    header = next(line for line in section.splitlines() if line.lstrip().startswith("I "))
+    assert all(label in header for label in labels)
+    assert "(rand)" not in out and "(perm)" not in out
+    n = len(tables["settlements"])
+    assert f"E[I] = -1/(n - 1) = {-1 / (n - 1):.4g}" in section  # common practice: E[I] = -1/(n - 1)
+    csv = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    assert labels == [c for c in csv.columns if c in labels]
 
 
 def test_command_line_demo_runs(tmp_path):
@@ -321,6 +381,7 @@ def test_command_line_demo_runs(tmp_path):
     )
     assert r.returncode == 0, r.stderr
     assert "Moran's I" in r.stdout and (tmp_path / "moran.csv").exists()
+    assert (tmp_path / "queen_links.png").exists() and (tmp_path / "weights" / "queen.mtx").exists()
 
 
 def test_readme_session_runs_and_its_shown_output_is_true():
@@ -371,7 +432,6 @@ def _run_readme_polygon_example(text: str) -> dict:
 
 
 def test_readme_audit_section_runs_and_its_shown_output_is_true():
-    pytest.importorskip("shapely")
     nx = pytest.importorskip("networkx")
     text = (ROOT / "README.md").read_text()
     block = re.search(r"## Checking and repairing weights\n.*?```python\n(.*?)```", text, re.S)

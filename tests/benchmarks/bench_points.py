@@ -8,6 +8,10 @@ peak memory. It never fails: it measures, it does not judge.
 Steps, each on the same data for both routes:
 * k_nearest (k = 8): scipy.spatial.cKDTree(workers=-1) query of k + 1
   neighbours plus building the scipy.sparse.csr_array, vs vicino.k_nearest.
+* inverse dist k16: cKDTree query of 17 neighbours, 1 / d and a csr_array, vs
+  vicino.inverse_distance(k=16).
+* adaptive kernel: cKDTree query of k + 1 (the unit itself and its k nearest),
+  triangular weights 1 - d / d_k and a csr_array, vs vicino.kernel_weights(k=k).
 * lag: scipy csr_array @ x vs Weights.lag(x), row-standardized k = 8.
 * lag 4 columns: scipy csr_array @ X vs Weights.lag(X) for an (n, 4) array.
 * moran: 999 permutations; a numpy loop that permutes the values and
@@ -48,6 +52,24 @@ CHILD = textwrap.dedent(
 
     if step == "knn":
         routes = (scipy_knn, lambda: vicino.k_nearest(pts, k))
+    elif step == "idw16":
+        def scipy_idw():
+            d, idx = cKDTree(pts).query(pts, k=17, workers=-1)
+            indptr = np.arange(0, n * 16 + 1, 16, dtype=np.int64)
+            m = sp.csr_array((1.0 / d[:, 1:].ravel(), idx[:, 1:].ravel(), indptr), shape=(n, n))
+            m.sort_indices()
+            return m
+        routes = (scipy_idw, lambda: vicino.inverse_distance(pts, k=16))
+    elif step == "kernel":
+        def scipy_kernel():
+            d, idx = cKDTree(pts).query(pts, k=k + 1, workers=-1)  # self first, the k-th last
+            u = d / d[:, -1:]
+            indptr = np.arange(0, n * (k + 1) + 1, k + 1, dtype=np.int64)
+            m = sp.csr_array((1.0 - u.ravel(), idx.ravel(), indptr), shape=(n, n))
+            m.eliminate_zeros()
+            m.sort_indices()
+            return m
+        routes = (scipy_kernel, lambda: vicino.kernel_weights(pts, k=k))
     elif step == "lag":
         w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy(); x = rng.random(n)
         routes = (lambda: m @ x, lambda: w.lag(x))
@@ -108,9 +130,14 @@ def main() -> None:
     ap.add_argument("--moran-sizes", type=int, nargs="+", default=[10_000, 100_000])
     ap.add_argument("--reps", type=int, default=3, help="runs of the slow steps (fast ones run 10x as often)")
     ap.add_argument("--k", type=int, default=8)
-    ap.add_argument("--steps", nargs="+", default=["knn", "lag", "lag4", "spectral", "moran"], help="steps to run")
+    ap.add_argument(
+        "--steps",
+        nargs="+",
+        default=["knn", "idw16", "kernel", "lag", "lag4", "spectral", "moran"],
+        help="steps to run",
+    )
     args = ap.parse_args()
-    plan = [(s, n) for n in args.sizes for s in ("knn", "lag", "lag4", "spectral")] + [
+    plan = [(s, n) for n in args.sizes for s in ("knn", "idw16", "kernel", "lag", "lag4", "spectral")] + [
         ("moran", n) for n in args.moran_sizes
     ]
     plan = [(s, n) for s, n in plan if s in args.steps]

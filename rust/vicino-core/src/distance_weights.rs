@@ -266,9 +266,9 @@ pub fn inverse_distance_points(
 }
 
 /// Kernel weights of points: a fixed bandwidth searches within it; an
-/// adaptive one finds each unit's k-th neighbour distance first, then
-/// searches within each unit's own bandwidth, so ties at the k-th distance
-/// are all included.
+/// adaptive one finds each unit's k-th neighbour distance first, then (for
+/// kernels that do not vanish at u = 1) searches within each unit's own
+/// bandwidth, so units tied with the k-th are all included.
 pub fn kernel_points(
     xy: &[f64],
     metric: Metric,
@@ -290,8 +290,13 @@ pub fn kernel_points(
             let near = neighbors::k_nearest(xy, k, metric, guard)?;
             let g = near.graph.view();
             let h: Vec<f64> = (0..g.n()).map(|i| g.row(i).1.iter().copied().fold(0.0, f64::max)).collect();
-            drop(near);
-            (neighbors::within_radii(xy, &h, metric, guard)?, h)
+            if kernel.at(1.0) == 0.0 {
+                // units tied with the k-th at u = 1 would weigh 0: the k nearest are all the links
+                (near, h)
+            } else {
+                drop(near);
+                (neighbors::within_radii(xy, &h, metric, guard)?, h)
+            }
         }
     };
     let (graph, distances) = kernel_weights(nb.graph.view(), &h, kernel, self_weight)?;

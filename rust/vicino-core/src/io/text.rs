@@ -298,14 +298,23 @@ pub fn push_entry(out: &mut Vec<u8>, i: usize, j: usize) {
     out.push(b' ');
 }
 
-/// Append a float in the shortest form that reads back exactly.
+/// Append a float in the shortest form that reads back exactly (Ryu;
+/// whole numbers without a trailing ".0").
+#[inline]
 pub fn push_f64(out: &mut Vec<u8>, v: f64) {
-    let a = v.abs();
-    if a == 0.0 || (1e-5..1e16).contains(&a) {
-        let _ = write!(out, "{v}");
-    } else {
-        let _ = write!(out, "{v:e}");
+    if v == v.trunc() && v.abs() < 1e15 {
+        push_u64_signed(out, v);
+        return;
     }
+    let mut buf = ryu::Buffer::new();
+    out.extend_from_slice(buf.format_finite(v).as_bytes());
+}
+
+fn push_u64_signed(out: &mut Vec<u8>, v: f64) {
+    if v < 0.0 {
+        out.push(b'-');
+    }
+    push_u64(out, v.abs() as u64);
 }
 
 /// Write `header`, then the lines that `line(i, w, out)` makes for each row

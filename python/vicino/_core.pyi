@@ -30,6 +30,7 @@ __all__ = [
     "moran",
     "neighbour_counts",
     "order",
+    "read_int_ids",
     "read_matrix_market",
     "read_triplet",
     "select",
@@ -40,6 +41,7 @@ __all__ = [
     "undirected_pairs",
     "validate",
     "within_distance",
+    "write_int_ids",
     "write_matrix_market",
     "write_triplet",
 ]
@@ -143,6 +145,8 @@ def read_matrix_market(path: str) -> _File: ...
 def write_matrix_market(path: str, w: _W, record: str) -> bool: ...
 def read_triplet(path: str) -> _File: ...
 def write_triplet(path: str, w: _W, record: str) -> None: ...
+def write_int_ids(path: str, ids: _I) -> None: ...
+def read_int_ids(path: str) -> tuple[_I | None, str | None]: ...
 
 _Kernel = Literal["uniform", "triangular", "epanechnikov", "quartic", "bisquare", "gaussian"]
 

@@ -207,6 +207,17 @@ def write_triplet(path: str, w: CoreMatrix, record: str, ids: pd.Index) -> None:
     _run(_core.write_triplet, ids, path, w, record)
 
 
+def write_int_ids(path: str, ids: pd.Index) -> None:
+    """Write whole-number ids after the ``id:int64`` header."""
+    _run(_core.write_int_ids, None, path, frozen(np.asarray(ids), np.int64))
+
+
+def read_int_ids(path: str) -> tuple[Ints | None, str | None]:
+    """(ids, None) of an ``id:int64`` ids file, or (None, its header)."""
+    ids, header = _run(_core.read_int_ids, None, path)
+    return (None if ids is None else owned(ids)), header
+
+
 # ---- using weights -------------------------------------------------------------
 def neighbour_counts(w: CoreMatrix, ids: pd.Index) -> Ints:
     """Links of each unit to other units."""

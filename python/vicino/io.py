@@ -50,7 +50,7 @@ import pandas as pd
 from . import _gateway as core
 from ._checks import choice
 from ._ids import examples
-from .errors import FileAccessError, FileFormatError, InvalidParameterError, VicinoError
+from .errors import FileAccessError, FileFormatError, InvalidInputError, InvalidParameterError, VicinoError
 from .weights import Step, Weights, built, core_matrix, link_facts, unit_facts
 
 Format = Literal["mtx", "triplet", "npz", "csv", "parquet"]
@@ -92,6 +92,11 @@ def sidecar_of(path: str | os.PathLike) -> Path:
 def _ids_dtype(ids: pd.Index) -> str:
     """``int64`` or ``str``: the dtypes ids can be written with."""
     if pd.api.types.is_integer_dtype(ids.dtype) and not isinstance(ids, pd.MultiIndex):
+        if pd.api.types.is_unsigned_integer_dtype(ids.dtype) and len(ids) and ids.max() > np.iinfo(np.int64).max:
+            raise InvalidParameterError(
+                f"the id {ids.max()} is beyond the int64 range files keep; write the ids as text "
+                "(rebuild the weights with ids=[str(i) for i in ids])"
+            )
         return "int64"
     if not isinstance(ids, pd.MultiIndex) and pd.api.types.infer_dtype(ids, skipna=False) == "string":
         if any("\n" in s or "\r" in s for s in ids):
@@ -104,8 +109,12 @@ def _ids_dtype(ids: pd.Index) -> str:
     )
 
 
-def _ids_frame(ids: pd.Index) -> pd.DataFrame:
-    return pd.DataFrame({f"id:{_ids_dtype(ids)}": np.asarray(ids)})
+def _write_ids(ids: pd.Index, dtype: str, path: Path) -> None:
+    """The ids file: whole numbers by the core, text through pandas (which quotes as CSV needs)."""
+    if dtype == "int64":
+        core.write_int_ids(str(path), ids)
+    else:
+        pd.DataFrame({f"id:{dtype}": np.asarray(ids)}).to_csv(path, index=False)
 
 
 def _typed_ids(values: np.ndarray, dtype: str, where: str) -> pd.Index:
@@ -129,6 +138,15 @@ def _read_sidecar(path: Path, n: int | None) -> pd.Index:
             stacklevel=4,
         )
         return pd.RangeIndex(n)
+    ints, _ = core.read_int_ids(str(side))
+    if ints is not None:
+        if n is not None and len(ints) != n:
+            raise FileFormatError(f"{side}: {len(ints)} ids for the {n} units of {path.name}; give one id per unit")
+        ids = pd.Index(ints)
+        if not ids.is_unique:
+            again = examples(ids[ids.duplicated()].unique())
+            raise FileFormatError(f"{side}: ids repeat: {again}; each unit needs its own id")
+        return ids
     try:
         frame = pd.read_csv(side, dtype=str, keep_default_na=False, na_filter=False)
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
@@ -211,13 +229,13 @@ def _atomic(*targets: Path) -> Iterator[list[Path]]:
 
 # ---- writers -----------------------------------------------------------------------------------------
 def _write_text(w: Weights, path: Path, fmt: str) -> None:
-    frame = _ids_frame(w.ids)
+    dtype = _ids_dtype(w.ids)
     side = sidecar_of(path)
     with _atomic(path, side) as (tmp, tmp_ids):
-        record = _record(w, ids={"file": side.name, "dtype": frame.columns[0][3:]})
+        record = _record(w, ids={"file": side.name, "dtype": dtype})
         writer = core.write_matrix_market if fmt == "mtx" else core.write_triplet
         writer(str(tmp), core_matrix(w), _json(record), w.ids)
-        frame.to_csv(tmp_ids, index=False)
+        _write_ids(w.ids, dtype, tmp_ids)
 
 
 def _write_npz(w: Weights, path: Path) -> None:
@@ -246,11 +264,11 @@ def _edge_table(w: Weights) -> pd.DataFrame:
 
 
 def _write_csv(w: Weights, path: Path) -> None:
-    frame = _ids_frame(w.ids)
+    dtype = _ids_dtype(w.ids)
     side = sidecar_of(path)
     with _atomic(path, side) as (tmp, tmp_ids):
         _edge_table(w).to_csv(tmp, index=False)
-        frame.to_csv(tmp_ids, index=False)
+        _write_ids(w.ids, dtype, tmp_ids)
 
 
 def _write_parquet(w: Weights, path: Path) -> None:
@@ -301,6 +319,38 @@ def _read_text(path: Path, fmt: str) -> Weights:
     return built(csr, ids, steps, duplicates=record.get("duplicate_locations"))
 
 
+def _canonical_npz(
+    path: Path, shape: tuple[int, int], indptr: Any, indices: Any, data: Any
+) -> tuple[tuple[Any, Any, Any], bool]:
+    """The CSR arrays of an archive, canonical, and whether they passed the core's full check.
+
+    As they are when they already are canonical (vicino's own files and most others: the core checks
+    them), else sorted and with zeros dropped by scipy.
+    """
+    if data.dtype.kind not in "iuf":
+        raise FileFormatError(f"{path}: the weights have dtype {data.dtype}; weights must be real numbers")
+    arrays = tuple(a.astype(t, copy=False) for a, t in ((indptr, np.int64), (indices, np.int64), (data, np.float64)))
+    for arr in arrays:
+        arr.flags.writeable = False  # fresh from the archive: nobody else holds them, no snapshot needed
+    try:
+        core.validate(shape[0], arrays[0], arrays[1], arrays[2], None)
+        return (arrays[0], arrays[1], arrays[2]), True
+    except VicinoError:
+        pass  # not canonical: let scipy sort it out, then check again
+    import scipy.sparse as sp
+
+    try:
+        m = sp.csr_array((data, indices, indptr), shape=shape)
+    except ValueError as exc:
+        raise FileFormatError(f"{path}: the sparse arrays do not fit together ({exc})") from None
+    m = m.astype(np.float64)
+    m.eliminate_zeros()
+    m.sort_indices()
+    if not m.has_canonical_format:
+        raise FileFormatError(f"{path}: the matrix stores some entries twice; each link must appear once")
+    return (m.indptr, m.indices, m.data), False
+
+
 def _read_npz(path: Path) -> Weights:
     try:
         archive = np.load(path, allow_pickle=False)
@@ -320,19 +370,7 @@ def _read_npz(path: Path) -> Weights:
         if len(shape) != 2 or shape[0] != shape[1] or shape[0] == 0:
             raise FileFormatError(f"{path}: the matrix has shape {shape}; weights need a square matrix")
         n = shape[0]
-        import scipy.sparse as sp
-
-        try:
-            m = sp.csr_array((a["data"], a["indices"], a["indptr"]), shape=shape)
-        except ValueError as exc:
-            raise FileFormatError(f"{path}: the sparse arrays do not fit together ({exc})") from None
-        if m.dtype.kind not in "iuf":
-            raise FileFormatError(f"{path}: the weights have dtype {m.dtype}; weights must be real numbers")
-        m = m.astype(np.float64)
-        m.eliminate_zeros()
-        m.sort_indices()
-        if not m.has_canonical_format:
-            raise FileFormatError(f"{path}: the matrix stores some entries twice; each link must appear once")
+        csr, checked = _canonical_npz(path, (n, n), a["indptr"], a["indices"], a["data"])
         record = _parse_record(a["vicino_record"].item() if "vicino_record" in a else None, str(path))
         if "vicino_ids" in a:
             ids = _typed_ids(a["vicino_ids"], record.get("ids", {}).get("dtype", "str"), str(path))
@@ -344,7 +382,7 @@ def _read_npz(path: Path) -> Weights:
         links = {k[len("vicino_link_") :]: a[k] for k in a if k.startswith("vicino_link_")}
         units = {k[len("vicino_unit_") :]: a[k] for k in a if k.startswith("vicino_unit_")}
     try:
-        indptr, indices, data = core.validate(n, m.indptr, m.indices, m.data, ids)
+        indptr, indices, data = csr if checked else core.validate(n, *csr, ids)
     except VicinoError as err:
         raise FileFormatError(f"{path}: {err}") from None
     if links and any(len(v) != len(data) for v in links.values()):
@@ -381,18 +419,16 @@ def _from_edge_table(
         raise FileFormatError(
             f"{where}, {line_of(e)}: the weight {table['weight'].iloc[e]!r} is not a finite number > 0"
         )
-    pairs = pd.DataFrame({"r": rows, "c": cols})
-    again = np.flatnonzero(pairs.duplicated().to_numpy())
-    if len(again):
-        e = int(again[0])
-        first_e = int(np.flatnonzero((rows == rows[e]) & (cols == cols[e]))[0])
-        raise FileFormatError(
-            f"{where}: {line_of(first_e)} and {line_of(e)} both give the link from {ids[rows[e]]!r} to "
-            f"{ids[cols[e]]!r}; each link must appear once"
-        )
     try:
         csr, first, _, _ = core.from_edges(len(ids), rows, cols, weight, "error", "keep", ids, edge_name=line_of)
     except VicinoError as err:
+        twice = sorted(getattr(err, "edges", []))
+        if isinstance(err, InvalidInputError) and len(twice) == 2:  # the core found a link given twice
+            a, b = twice
+            raise FileFormatError(
+                f"{where}: {line_of(a)} and {line_of(b)} both give the link from {ids[rows[b]]!r} to "
+                f"{ids[cols[b]]!r}; each link must appear once"
+            ) from None
         raise FileFormatError(f"{where}: {err}") from None
     facts = {
         c: pd.to_numeric(table[c], errors="coerce").to_numpy(dtype=np.float64)[first]

@@ -437,8 +437,16 @@ impl<'a> CsrRef<'a> {
 
     /// Whether w_ij == w_ji for every pair.
     pub fn is_symmetric(&self) -> bool {
-        let t = self.transpose();
-        t.indptr == self.indptr && t.indices == self.indices && t.data == self.data
+        // each stored w_ij looked up as w_ji; stops at the first that differs
+        let row_ok = |i: usize| {
+            let (c, v) = self.row(i);
+            c.iter().zip(v).all(|(&j, &w)| self.get(j as usize, i) == Some(w))
+        };
+        if self.nnz() >= PARALLEL_MIN_NNZ {
+            (0..self.n()).into_par_iter().with_min_len(1 << 12).all(row_ok)
+        } else {
+            (0..self.n()).all(row_ok)
+        }
     }
 
     /// The weight w_ij, if the link i -> j is stored: a binary search in row i.

@@ -67,6 +67,8 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
         wrap_pyfunction!(io::write_matrix_market, m)?,
         wrap_pyfunction!(io::read_triplet, m)?,
         wrap_pyfunction!(io::write_triplet, m)?,
+        wrap_pyfunction!(io::write_int_ids, m)?,
+        wrap_pyfunction!(io::read_int_ids, m)?,
         wrap_pyfunction!(get_memory_limit, m)?,
         wrap_pyfunction!(set_memory_limit, m)?,
     ] {

@@ -249,11 +249,40 @@ def test_sidecar_problems_are_named(tmp_path):
     with pytest.raises(vicino.FileFormatError, match="header must be id:int64 or id:str"):
         vicino.read(path)
     side.write_text("id:int64\n1\n2\nthree\n4\n5\n6\n")
-    with pytest.raises(vicino.FileFormatError, match="not all whole numbers"):
+    with pytest.raises(vicino.FileFormatError, match='line 4: the id "three" is not a whole number'):
+        vicino.read(path)
+    side.write_text("id:int64\n1\n2\n\n4\n5\n6\n")
+    with pytest.raises(vicino.FileFormatError, match="line 4: the line is empty"):
+        vicino.read(path)
+    side.write_text("id:int64\n1\n2\n9223372036854775808\n4\n5\n6\n")  # 2**63: beyond int64
+    with pytest.raises(vicino.FileFormatError, match="line 4"):
+        vicino.read(path)
+    side.write_text("id:int64\n1\n2\n3\n4\n5\n5\n")
+    with pytest.raises(vicino.FileFormatError, match="repeat: 5"):
+        vicino.read(path)
+    side.write_text("id:int64\n1\n2\n3\n4\n5\n")
+    with pytest.raises(vicino.FileFormatError, match="5 ids for the 6 units"):
         vicino.read(path)
     side.write_text("id:str\na\nb\na\nc\nd\ne\n")
     with pytest.raises(vicino.FileFormatError, match="repeat"):
         vicino.read(path)
+
+
+@pytest.mark.parametrize("fmt", [".mtx", ".txt", ".csv"])
+def test_whole_number_ids_survive_at_the_edges_of_int64(tmp_path, fmt):
+    extremes = np.array([np.iinfo(np.int64).min, -1, 0, 7, 10**18, np.iinfo(np.int64).max], dtype=np.int64)
+    w = vicino.from_matrix(np.ones((6, 6)) - np.eye(6), ids=extremes)
+    back = vicino.read(w.write(tmp_path / f"w{fmt}"))
+    # the ids file is plain text: pandas reads the same numbers (pandas as the outside reader)
+    assert pd.read_csv(tmp_path / f"w{fmt}.ids.csv")["id:int64"].tolist() == extremes.tolist()
+    assert back.ids.dtype == np.int64 and back.ids.tolist() == extremes.tolist()
+
+
+def test_unsigned_ids_beyond_int64_are_refused(tmp_path):
+    w = vicino.from_matrix(np.ones((2, 2)) - np.eye(2), ids=np.array([1, 2**63 + 5], dtype=np.uint64))
+    with pytest.raises(vicino.InvalidParameterError, match="beyond the int64 range"):
+        w.write(tmp_path / "w.mtx")
+    assert not (tmp_path / "w.mtx").exists()
 
 
 def test_bad_edge_tables_name_the_line(tmp_path):
@@ -270,7 +299,7 @@ def test_bad_edge_tables_name_the_line(tmp_path):
             vicino.read(path)
         assert "line 2" in str(err.value), name
     path.write_text("\n".join([good[0], good[1], good[1], *good[2:]]) + "\n")
-    with pytest.raises(vicino.FileFormatError, match=r"lines 2 and 3|line 2 and line 3"):
+    with pytest.raises(vicino.FileFormatError, match=r"line 2 and line 3 both give the link from .* must appear once"):
         vicino.read(path)
 
 

@@ -19,7 +19,7 @@
 //! exactly. A comment line `%vicino <text>` carries what the caller wants
 //! kept (ids, recipe). O(bytes), parallel over chunks of lines.
 
-use super::text::{assemble, bad, chunks, parse_entries, push_entry, push_f64, read_file, write_rows, Layout};
+use super::text::{assemble, bad, chunks, parse_entries, push_f64, read_file, write_rows, Layout, RowPrefix};
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
 use crate::guard::Guard;
@@ -133,10 +133,9 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
     }
     guard.reserve(rows as f64 * 24.0, "the units this file declares", "check the size line of the file")?;
     let layout = Layout { n: rows, valued: !pattern, comments: true };
-    let entries = parse_entries(path, &chunks(&text, at.min(text.len()), line_no + 1), layout, guard)?;
-    drop(text);
+    let entries = parse_entries(path, chunks(&text, at.min(text.len()), line_no + 1), layout, guard)?;
     if entries.len() as u64 != declared {
-        let last = entries.last().map_or(line_no, |e| e.line);
+        let last = entries.last_line(line_no);
         let why = if (entries.len() as u64) < declared { " (is it truncated?)" } else { "" };
         return Err(bad(
             path,
@@ -165,11 +164,12 @@ pub fn write(path: &str, w: CsrRef<'_>, record: &str, guard: &Guard) -> Result<b
     let header = format!("%%MatrixMarket matrix coordinate real {kind}\n{RECORD}{record}\n{n} {n} {nnz}\n", n = w.n());
     write_rows(path, &header, w, "", guard, |i, out| {
         let (cols, vals) = w.row(i);
+        let row = RowPrefix::new(i);
         for (&j, &v) in cols.iter().zip(vals) {
             if symmetric && j as usize > i {
                 break;
             }
-            push_entry(out, i, j as usize);
+            row.push_entry(out, j as usize);
             push_f64(out, v);
             out.push(b'\n');
         }

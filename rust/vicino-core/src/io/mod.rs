@@ -1,6 +1,7 @@
 //! Open standard encodings: Well-Known Binary polygons in, weights files
 //! (Matrix Market, triplet text) in and out.
 
+pub mod ids;
 pub mod matrix_market;
 mod text;
 pub mod triplet;

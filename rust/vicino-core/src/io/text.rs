@@ -16,14 +16,21 @@ use crate::guard::Guard;
 use rayon::prelude::*;
 use std::io::Write;
 
-/// One stored entry of a text file: 0-based row and column, value, and
-/// the 1-based line it came from.
+/// One stored entry of a text file: 0-based row and column, and value.
+/// (Line numbers are found again from the text only when a message needs
+/// one: see [`Entries::line_of`].)
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Entry {
     pub row: u32,
     pub col: u32,
     pub value: f64,
-    pub line: u64,
+}
+
+impl Entry {
+    #[inline]
+    fn key(&self) -> u64 {
+        (self.row as u64) << 32 | self.col as u64
+    }
 }
 
 /// Where a read failed: the file and line, for the message.
@@ -40,34 +47,80 @@ pub fn read_file(path: &str, guard: &Guard) -> Result<Vec<u8>> {
     std::fs::read(path).map_err(io)
 }
 
-/// The lines of `text` from byte `from` on, as chunks of whole lines with
-/// the 1-based number of each chunk's first line (`first_line` is the line
-/// number at `from`).
-pub fn chunks(text: &[u8], from: usize, first_line: u64) -> Vec<(u64, &[u8])> {
+/// The lines of `text` from byte `from` on, as chunks of whole lines, and
+/// the 1-based line number at `from`. Line numbers of later chunks are
+/// counted only when a message needs one ([`Chunks::first_line`]).
+pub struct Chunks<'t> {
+    pieces: Vec<&'t [u8]>,
+    first_line: u64,
+}
+
+impl Chunks<'_> {
+    /// The 1-based number of the first line of chunk `c`.
+    pub fn first_line(&self, c: usize) -> u64 {
+        self.first_line + self.pieces[..c].iter().map(|p| memchr::memchr_iter(b'\n', p).count() as u64).sum::<u64>()
+    }
+
+    /// `parse(lines)` of every chunk, in parallel, in file order; `parse`
+    /// numbers lines from 0 within its chunk, and a [`Error::BadFile`] it
+    /// returns is renumbered to the line in the file.
+    pub fn parse<T: Send>(
+        &self,
+        guard: &Guard,
+        parse: impl Fn(&mut dyn Iterator<Item = &[u8]>) -> Result<Vec<T>> + Sync,
+    ) -> Result<Vec<Vec<T>>> {
+        let parsed: Vec<Result<Vec<T>>> = self
+            .pieces
+            .par_iter()
+            .map(|bytes| {
+                guard.check()?;
+                parse(&mut lines(bytes))
+            })
+            .collect();
+        let mut out = Vec::with_capacity(parsed.len());
+        for (c, p) in parsed.into_iter().enumerate() {
+            match p {
+                Ok(v) => out.push(v),
+                Err(Error::BadFile { path, line, reason }) => {
+                    return Err(Error::BadFile { path, line: self.first_line(c) + line, reason })
+                }
+                Err(e) => return Err(e),
+            }
+        }
+        Ok(out)
+    }
+}
+
+/// Cut the lines of `text` from byte `from` on into chunks for parallel parsing.
+pub fn chunks(text: &[u8], from: usize, first_line: u64) -> Chunks<'_> {
     let body = &text[from..];
     let target = (body.len() / (4 * rayon::current_num_threads().max(1))).max(1 << 16);
-    let mut cuts = vec![0usize];
+    let mut pieces = Vec::new();
     let mut at = 0;
     while at < body.len() {
-        let mut end = (at + target).min(body.len());
-        while end < body.len() && body[end - 1] != b'\n' {
-            end += 1;
-        }
-        cuts.push(end);
+        let end = (at + target).min(body.len());
+        let end = match memchr::memchr(b'\n', &body[end - 1..]) {
+            Some(p) => end + p,
+            None => body.len(),
+        };
+        pieces.push(&body[at..end]);
         at = end;
     }
-    let pieces: Vec<&[u8]> = cuts.windows(2).map(|w| &body[w[0]..w[1]]).collect();
-    let counts: Vec<u64> = pieces.par_iter().map(|p| p.iter().filter(|&&b| b == b'\n').count() as u64).collect();
-    let mut line = first_line;
-    pieces
-        .into_iter()
-        .zip(counts)
-        .map(|(p, c)| {
-            let start = line;
-            line += c;
-            (start, p)
-        })
-        .collect()
+    Chunks { pieces, first_line }
+}
+
+/// The lines of a chunk (without their `\n`, nor a `\r` before it).
+fn lines(bytes: &[u8]) -> impl Iterator<Item = &[u8]> {
+    let mut at = 0;
+    std::iter::from_fn(move || {
+        if at >= bytes.len() {
+            return None;
+        }
+        let end = memchr::memchr(b'\n', &bytes[at..]).map_or(bytes.len(), |p| at + p);
+        let line = &bytes[at..end];
+        at = end + 1;
+        Some(line.strip_suffix(b"\r").unwrap_or(line))
+    })
 }
 
 /// The whitespace-separated fields of a line, one at a time.
@@ -158,55 +211,146 @@ pub struct Layout {
     pub comments: bool,
 }
 
+/// The entries of a file, chunk by chunk, beside the chunks of text they
+/// came from (kept to find the line of an entry when a message needs it).
+pub struct Entries<'t> {
+    parts: Chunks<'t>,
+    chunks: Vec<Vec<Entry>>,
+    comments: bool,
+}
+
+impl Entries<'_> {
+    /// The number of entries.
+    #[allow(clippy::len_without_is_empty)]
+    pub fn len(&self) -> usize {
+        self.chunks.iter().map(Vec::len).sum()
+    }
+
+    /// The last entry.
+    pub fn last(&self) -> Option<Entry> {
+        self.chunks.iter().rev().find_map(|c| c.last().copied())
+    }
+
+    /// Remove the last entry.
+    pub fn pop(&mut self) {
+        if let Some(c) = self.chunks.iter_mut().rev().find(|c| !c.is_empty()) {
+            c.pop();
+        }
+    }
+
+    /// Every entry, in file order.
+    pub fn iter(&self) -> impl Iterator<Item = &Entry> {
+        self.chunks.iter().flatten()
+    }
+
+    /// The 1-based line of entry `k` (0-based, in file order), found by
+    /// scanning its chunk again: O(chunk), for messages only.
+    pub fn line_of(&self, mut k: usize) -> u64 {
+        for (c, (entries, bytes)) in self.chunks.iter().zip(&self.parts.pieces).enumerate() {
+            if k >= entries.len() {
+                k -= entries.len();
+                continue;
+            }
+            for (l, raw) in lines(bytes).enumerate() {
+                match fields(raw).next() {
+                    None => continue,
+                    Some(a) if self.comments && (a[0] == b'%' || a[0] == b'#') => continue,
+                    Some(_) if k == 0 => return self.parts.first_line(c) + l as u64,
+                    Some(_) => k -= 1,
+                }
+            }
+        }
+        self.parts.first_line(self.parts.pieces.len())
+    }
+
+    /// The line of the last entry (or `otherwise` when there are none).
+    pub fn last_line(&self, otherwise: u64) -> u64 {
+        match self.len() {
+            0 => otherwise,
+            len => self.line_of(len - 1),
+        }
+    }
+}
+
 /// Parse the entry lines of all chunks in parallel, in file order. Blank
 /// lines are skipped.
-pub fn parse_entries(path: &str, parts: &[(u64, &[u8])], layout: Layout, guard: &Guard) -> Result<Vec<Entry>> {
-    let per_chunk: Vec<Vec<Entry>> = parts
-        .par_iter()
-        .map(|&(first, bytes)| {
-            guard.check()?;
-            let mut out = Vec::with_capacity(bytes.len() / 16);
-            for (k, raw) in bytes.split(|&b| b == b'\n').enumerate() {
-                let line = first + k as u64;
-                let raw = raw.strip_suffix(b"\r").unwrap_or(raw);
-                let mut f = fields(raw);
-                let Some(a) = f.next() else { continue };
-                if layout.comments && (a[0] == b'%' || a[0] == b'#') {
-                    continue;
-                }
-                let b = f
-                    .next()
-                    .ok_or_else(|| bad(path, line, "the line has one field; an entry needs a row and a column"))?;
-                let row = index(a, path, line, layout.n, "row")?;
-                let col = index(b, path, line, layout.n, "column")?;
-                let v = if layout.valued {
-                    let c =
-                        f.next().ok_or_else(|| bad(path, line, "the line has no weight after the row and column"))?;
-                    value(c, path, line)?
-                } else {
-                    1.0
-                };
-                if f.next().is_some() {
-                    return Err(bad(path, line, "the line has more fields than a row, a column and a weight"));
-                }
-                out.push(Entry { row, col, value: v, line });
+pub fn parse_entries<'t>(path: &str, parts: Chunks<'t>, layout: Layout, guard: &Guard) -> Result<Entries<'t>> {
+    let chunks = parts.parse(guard, |lines| {
+        let mut out = Vec::new();
+        for (k, raw) in lines.enumerate() {
+            let mut f = fields(raw);
+            let Some(a) = f.next() else { continue };
+            if layout.comments && (a[0] == b'%' || a[0] == b'#') {
+                continue;
             }
-            Ok(out)
-        })
-        .collect::<Result<_>>()?;
-    let total: usize = per_chunk.iter().map(Vec::len).sum();
-    let mut all = Vec::with_capacity(total);
-    for c in per_chunk {
-        all.extend(c);
-    }
-    Ok(all)
+            let line = k as u64;
+            let b =
+                f.next().ok_or_else(|| bad(path, line, "the line has one field; an entry needs a row and a column"))?;
+            let row = index(a, path, line, layout.n, "row")?;
+            let col = index(b, path, line, layout.n, "column")?;
+            let v = if layout.valued {
+                let c = f.next().ok_or_else(|| bad(path, line, "the line has no weight after the row and column"))?;
+                value(c, path, line)?
+            } else {
+                1.0
+            };
+            if f.next().is_some() {
+                return Err(bad(path, line, "the line has more fields than a row, a column and a weight"));
+            }
+            out.push(Entry { row, col, value: v });
+        }
+        Ok(out)
+    })?;
+    Ok(Entries { parts, chunks, comments: layout.comments })
+}
+
+/// Whether the entries come in strictly increasing (row, column) order
+/// with positive weights: then they are already canonical CSR.
+fn canonical(entries: &Entries<'_>) -> bool {
+    let inside = entries
+        .chunks
+        .par_iter()
+        .all(|c| c.windows(2).all(|p| p[0].key() < p[1].key()) && c.iter().all(|e| e.value > 0.0));
+    let firsts: Vec<(u64, u64)> =
+        entries.chunks.iter().filter(|c| !c.is_empty()).map(|c| (c[0].key(), c[c.len() - 1].key())).collect();
+    inside && firsts.windows(2).all(|p| p[0].1 < p[1].0)
 }
 
 /// Canonical CSR of n units from entries, refusing duplicate entries (both
 /// lines named) and weights that are not positive. With `mirror`, each
 /// off-diagonal entry (i, j) also stands for (j, i) (a symmetric file that
-/// stores one triangle).
-pub fn assemble(path: &str, n: usize, entries: &[Entry], mirror: bool, guard: &Guard) -> Result<Parts<f64>> {
+/// stores one triangle). Entries already in canonical order (as vicino and
+/// most writers write them) are copied straight into place, in parallel.
+pub fn assemble(path: &str, n: usize, entries: &Entries<'_>, mirror: bool, guard: &Guard) -> Result<Parts<f64>> {
+    let total = entries.len();
+    if !mirror && canonical(entries) {
+        guard.reserve(total as f64 * 16.0 + n as f64 * 8.0, "the matrix in this file", "split the matrix")?;
+        let mut indptr = vec![0i64; n + 1];
+        for e in entries.iter() {
+            indptr[e.row as usize + 1] += 1;
+        }
+        for r in 0..n {
+            indptr[r + 1] += indptr[r];
+        }
+        let mut indices = vec![0i64; total];
+        let mut data = vec![0f64; total];
+        let mut slots = Vec::with_capacity(entries.chunks.len());
+        let (mut ri, mut rd) = (indices.as_mut_slice(), data.as_mut_slice());
+        for c in &entries.chunks {
+            let (a, rest_i) = ri.split_at_mut(c.len());
+            let (b, rest_d) = rd.split_at_mut(c.len());
+            slots.push((c, a, b));
+            (ri, rd) = (rest_i, rest_d);
+        }
+        slots.into_par_iter().for_each(|(c, a, b)| {
+            for ((e, i), d) in c.iter().zip(a.iter_mut()).zip(b.iter_mut()) {
+                *i = e.col as i64;
+                *d = e.value;
+            }
+        });
+        return Ok((indptr, indices, data));
+    }
+    let flat: Vec<Entry> = entries.iter().copied().collect();
     // bucket the entries by row (counting sort), then sort each row
     let mut count = vec![0usize; n + 1];
     let each = |e: &Entry, f: &mut dyn FnMut(u32, u32)| {
@@ -215,7 +359,7 @@ pub fn assemble(path: &str, n: usize, entries: &[Entry], mirror: bool, guard: &G
             f(e.col, e.row);
         }
     };
-    for e in entries {
+    for e in &flat {
         each(e, &mut |r, _| count[r as usize + 1] += 1);
     }
     for r in 0..n {
@@ -224,7 +368,7 @@ pub fn assemble(path: &str, n: usize, entries: &[Entry], mirror: bool, guard: &G
     guard.reserve(count[n] as f64 * 40.0, "the matrix in this file", "split the matrix")?;
     let mut slot = count.clone();
     let mut bucket = vec![(0u32, 0u32); count[n]]; // (column, entry index)
-    for (k, e) in entries.iter().enumerate() {
+    for (k, e) in flat.iter().enumerate() {
         each(e, &mut |r, c| {
             bucket[slot[r as usize]] = (c, k as u32);
             slot[r as usize] += 1;
@@ -241,24 +385,24 @@ pub fn assemble(path: &str, n: usize, entries: &[Entry], mirror: bool, guard: &G
             row.extend_from_slice(&bucket[count[i]..count[i + 1]]);
             row.sort_unstable();
             for (p, &(c, k)) in row.iter().enumerate() {
-                let e = &entries[k as usize];
+                let e = &flat[k as usize];
                 if p > 0 && row[p - 1].0 == c {
-                    let first = entries[row[p - 1].1 as usize].line;
+                    let (a, b) = (entries.line_of(row[p - 1].1 as usize), entries.line_of(k as usize));
                     return Err(bad(
                         path,
-                        e.line.max(first),
+                        a.max(b),
                         format!(
                             "a second entry for row {}, column {} (the first is on line {}); each link must appear once",
                             i + 1,
                             c + 1,
-                            e.line.min(first)
+                            a.min(b)
                         ),
                     ));
                 }
                 if !(e.value > 0.0) {
                     return Err(bad(
                         path,
-                        e.line,
+                        entries.line_of(k as usize),
                         format!(
                             "the weight is {}; stored weights must be > 0 (a zero is no link: leave the line out)",
                             e.value
@@ -289,13 +433,38 @@ pub fn push_u64(out: &mut Vec<u8>, mut v: u64) {
     out.extend_from_slice(&buf[at..]);
 }
 
-/// Append "i j " (1-based) for an entry at row i, column j (0-based).
-#[inline]
-pub fn push_entry(out: &mut Vec<u8>, i: usize, j: usize) {
-    push_u64(out, i as u64 + 1);
-    out.push(b' ');
-    push_u64(out, j as u64 + 1);
-    out.push(b' ');
+/// The text "i " (1-based) of row i, formatted once for all its entries.
+pub struct RowPrefix {
+    buf: [u8; 21],
+    len: usize,
+}
+
+impl RowPrefix {
+    #[inline]
+    pub fn new(i: usize) -> Self {
+        let mut digits = [0u8; 20];
+        let (mut at, mut v) = (digits.len(), i as u64 + 1);
+        loop {
+            at -= 1;
+            digits[at] = b'0' + (v % 10) as u8;
+            v /= 10;
+            if v == 0 {
+                break;
+            }
+        }
+        let len = digits.len() - at;
+        let mut buf = [b' '; 21];
+        buf[..len].copy_from_slice(&digits[at..]);
+        RowPrefix { buf, len: len + 1 }
+    }
+
+    /// Append "i j " for the entry at column j (0-based).
+    #[inline]
+    pub fn push_entry(&self, out: &mut Vec<u8>, j: usize) {
+        out.extend_from_slice(&self.buf[..self.len]);
+        push_u64(out, j as u64 + 1);
+        out.push(b' ');
+    }
 }
 
 /// Append a float in the shortest form that reads back exactly (Ryu;
@@ -380,13 +549,15 @@ mod tests {
     fn chunks_keep_line_numbers() {
         let text = b"a\nb\nc\n".repeat(50_000);
         let parts = chunks(&text, 0, 1);
-        assert!(parts.len() > 1);
-        // every chunk starts on a line that is 1 more than the lines before it
+        assert!(parts.pieces.len() > 1);
+        // every chunk is whole lines, and starts on a line that is 1 more than the lines before it
         let mut expect = 1;
-        for (first, bytes) in parts {
-            assert_eq!(first, expect);
+        for (c, bytes) in parts.pieces.iter().enumerate() {
+            assert_eq!(parts.first_line(c), expect);
+            assert!(bytes.ends_with(b"\n"));
             expect += bytes.iter().filter(|&&b| b == b'\n').count() as u64;
         }
         assert_eq!(expect, 150_001);
+        assert_eq!(parts.pieces.concat(), text);
     }
 }

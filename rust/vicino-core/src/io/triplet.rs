@@ -11,7 +11,7 @@
 //! and line named, as in [`super::matrix_market`]. O(bytes), parallel.
 
 use super::matrix_market::WeightsFile;
-use super::text::{assemble, bad, chunks, parse_entries, push_entry, push_f64, read_file, write_rows, Layout};
+use super::text::{assemble, bad, chunks, parse_entries, push_f64, read_file, write_rows, Layout, RowPrefix};
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
 use crate::guard::Guard;
@@ -39,9 +39,8 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
         }
     }
     let layout = Layout { n: u32::MAX as u64 - 1, valued: true, comments: true };
-    let mut entries = parse_entries(path, &chunks(&text, 0, 1), layout, guard)?;
-    drop(text);
-    let Some(last) = entries.last().copied() else {
+    let mut entries = parse_entries(path, chunks(&text, 0, 1), layout, guard)?;
+    let Some(last) = entries.last() else {
         return Err(bad(path, 1, "the file holds no entries \"i j w\""));
     };
     let n = entries.iter().map(|e| e.row.max(e.col) as usize + 1).max().unwrap_or(0);
@@ -49,7 +48,7 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
         if last.row != last.col {
             return Err(bad(
                 path,
-                last.line,
+                entries.last_line(1),
                 format!(
                     "the closing line {} {} 0 must name the same row and column (n n 0)",
                     last.row + 1,
@@ -73,8 +72,9 @@ pub fn write(path: &str, w: CsrRef<'_>, record: &str, guard: &Guard) -> Result<(
     let footer = format!("{n} {n} 0\n", n = w.n());
     write_rows(path, &header, w, &footer, guard, |i, out| {
         let (cols, vals) = w.row(i);
+        let row = RowPrefix::new(i);
         for (&j, &v) in cols.iter().zip(vals) {
-            push_entry(out, i, j as usize);
+            row.push_entry(out, j as usize);
             push_f64(out, v);
             out.push(b'\n');
         }

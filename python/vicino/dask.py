@@ -138,7 +138,7 @@ def _boxes_apart(lo_a: np.ndarray, hi_a: np.ndarray, lo_b: np.ndarray, hi_b: np.
 def _empty_units(id_dtype: Any, polygons: bool) -> pd.DataFrame:
     cols: dict[str, Any] = {"_id": pd.Series([], dtype=id_dtype), "_pos": np.zeros(0, np.int64)}
     if polygons:
-        cols.update({"_wkb": pd.Series([], dtype=object), **{c: np.zeros(0) for c in ("minx", "miny", "maxx", "maxy")}})
+        cols.update({"_wkb": pd.Series([], dtype=str), **{c: np.zeros(0) for c in ("minx", "miny", "maxx", "maxy")}})
     else:
         cols.update({"x": np.zeros(0), "y": np.zeros(0)})
     return pd.DataFrame(cols)
@@ -171,7 +171,7 @@ def _read_polygons(pdf: pd.DataFrame, id_column: Any, id_dtype: Any) -> pd.DataF
     geoms = np.asarray(pdf.geometry if hasattr(pdf, "geometry") else pdf["geometry"], dtype=object)
     _, units, _ = as_polygons(geoms, ids=ids)
     box = shapely.bounds(geoms)
-    out = pd.DataFrame({"_id": units, "_wkb": shapely.to_wkb(geoms)})
+    out = pd.DataFrame({"_id": units, "_wkb": shapely.to_wkb(geoms, hex=True)})  # text crosses shuffles intact
     for c, name in enumerate(("minx", "miny", "maxx", "maxy")):
         out[name] = box[:, c]
     return out
@@ -345,6 +345,7 @@ def _build(spec: _Spec, p: int, own: pd.DataFrame, pending: Any, *halo: tuple[in
     mine = np.isin(local["_pos"].to_numpy(), mine_pos)
     if spec.kind == "k_nearest" and len(local) <= spec.params["k"]:
         result["pending"], result["radius"] = mine_pos, math.inf  # too few units in reach: take more
+        result["box"] = _box(local[mine], spec.metric)[1:]
         return result
     ids = pd.Index(local["_id"])
     with warnings.catch_warnings():
@@ -362,15 +363,21 @@ def _build(spec: _Spec, p: int, own: pd.DataFrame, pending: Any, *halo: tuple[in
         except VicinoError as err:
             raise _in_global_positions(err, local["_pos"].to_numpy()) from None
     if spec.kind == "k_nearest":
-        kth = w._links["distance"][w._indptr[1:] - 1]
+        kth = _kth(w, spec.params["k"])
         certified = kth <= spec.params["_radius"]
         late = mine & ~certified
         result["pending"] = local["_pos"].to_numpy()[late]
         result["radius"] = float(kth[late].max()) if late.any() else 0.0
+        result["box"] = _box(local[late], spec.metric)[1:]
         mine = mine & certified
     result["edges"], result["units"] = _rows(w, local, mine, spec.id_dtype)
     result["duplicates"] = _duplicates(local, mine)
     return result
+
+
+def _kth(w: Weights, k: int) -> np.ndarray:
+    """Each unit's k-th neighbour distance (rows hold k links, sorted by position, not distance)."""
+    return w._links["distance"].reshape(-1, k).max(axis=1)
 
 
 def _local_kth(own: pd.DataFrame, k: int, metric: str) -> float:
@@ -380,7 +387,7 @@ def _local_kth(own: pd.DataFrame, k: int, metric: str) -> float:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DuplicateLocationWarning)
         w = _k_nearest(own[["x", "y"]].to_numpy(), k, metric=metric, ids=pd.Index(own["_pos"]))
-    return float(w._links["distance"][w._indptr[1:] - 1].max())
+    return float(_kth(w, k).max())
 
 
 def _pick(result: dict[str, Any], name: str) -> Any:
@@ -548,10 +555,9 @@ def _strip(params: dict[str, Any]) -> dict[str, Any]:
     return {k: v for k, v in params.items() if not k.startswith("_")}
 
 
-def _pending_box(own: pd.DataFrame, pending: np.ndarray, metric: str) -> tuple[np.ndarray, np.ndarray]:
-    sub = own[np.isin(own["_pos"].to_numpy(), pending)]
-    _, lo, hi = _box(sub, metric)
-    return lo, hi
+def _late(result: dict[str, Any]) -> tuple[np.ndarray, float, Any]:
+    """What the driver needs of a round: the units left uncertified, their k-th distance bound and box."""
+    return result["pending"], result["radius"], result.get("box")
 
 
 def _finish(
@@ -887,13 +893,11 @@ def k_nearest(
         out, new_pairs = _round(u, spec, search, pending, boxes, certify=radii)
         pairs |= new_pairs
         out = dict(zip(out, _client_persist(*out.values()), strict=True))
-        late = dask.compute(
-            {p: (dask.delayed(_pick)(d, "pending"), dask.delayed(_pick)(d, "radius")) for p, d in out.items()}
-        )[0]
+        late = dask.compute({p: dask.delayed(_late)(d) for p, d in out.items()})[0]
         for p, d in out.items():
             results.setdefault(p, []).append(d)
         previous, radii, pending, boxes = radii, {}, {}, {}
-        for p, (left, found) in late.items():
+        for p, (left, found, box) in late.items():
             if len(left) == 0:
                 continue
             if math.isfinite(found):
@@ -902,7 +906,7 @@ def k_nearest(
                 before = previous[p]
                 radii[p] = 2 * before if 0 < before < math.inf else math.inf
             pending[p] = left
-            boxes[p] = dask.compute(dask.delayed(_pending_box)(u.parts[p], left, metric))[0]
+            boxes[p] = box
     step = Step("k_nearest", {"k": k, "metric": metric})
     return _finish(u, spec, results, pairs, step)
 

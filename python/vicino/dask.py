@@ -42,7 +42,7 @@ import math
 import warnings
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
-from typing import Any, Literal
+from typing import Any, Literal, cast
 
 import numpy as np
 import pandas as pd
@@ -156,7 +156,7 @@ def _read_points(pdf: pd.DataFrame, id_column: Any, columns: Any, metric: str, i
         bad |= np.abs(xy[:, 1]) > 90
     if bad.any():
         # the core's own check names the unit and the coordinate, as in memory
-        _within_distance(xy, 0.0, metric=metric, ids=units)
+        _within_distance(xy, 0.0, metric=cast(Metric, metric), ids=units)
         raise InvalidInputError(f"coordinates of ids {examples(units[bad])} are not usable locations")
     return pd.DataFrame({"_id": units, "x": xy[:, 0], "y": xy[:, 1]}).reset_index(drop=True)
 
@@ -359,7 +359,7 @@ def _build(spec: _Spec, p: int, own: pd.DataFrame, pending: Any, *halo: tuple[in
             else:
                 xy = local[["x", "y"]].to_numpy()
                 make = _k_nearest if spec.kind == "k_nearest" else _within_distance
-                w = make(xy, ids=ids, metric=spec.metric, **_strip(spec.params))
+                w = make(xy, ids=ids, metric=cast(Metric, spec.metric), **_strip(spec.params))
         except VicinoError as err:
             raise _in_global_positions(err, local["_pos"].to_numpy()) from None
     if spec.kind == "k_nearest":
@@ -386,7 +386,7 @@ def _local_kth(own: pd.DataFrame, k: int, metric: str) -> float:
         return math.inf
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DuplicateLocationWarning)
-        w = _k_nearest(own[["x", "y"]].to_numpy(), k, metric=metric, ids=pd.Index(own["_pos"]))
+        w = _k_nearest(own[["x", "y"]].to_numpy(), k, metric=cast(Metric, metric), ids=pd.Index(own["_pos"]))
     return float(_kth(w, k).max())
 
 

@@ -72,9 +72,8 @@ def main() -> None:
     # the in-memory route: the result alone is n k links x (8 B index + 8 B weight + 8 B distance)
     result_bytes = n * k * 24
     print(f"n = {n:,}, k = {k}, {parts} partitions of {rows:,} units, {args.memory_limit} GB per worker")
-    print(
-        f"in-memory result alone: {n:,} x {k} x 24 B = {result_bytes / 1e9:.2f} GB (> {args.memory_limit} GB per worker)"
-    )
+    gb = result_bytes / 1e9
+    print(f"in-memory result alone: {n:,} x {k} x 24 B = {gb:.2f} GB (limit {args.memory_limit} GB per worker)")
     if args.in_memory:
         t, mb = in_memory_peak(n, k)
         print(f"in-memory k_nearest: {t:.1f} s, peak {mb / 1024:.2f} GB in one process")

@@ -269,3 +269,12 @@ def test_readme_example_runs_and_equals_in_memory(client, tmp_path, monkeypatch)
     lagged = pd.read_parquet(tmp_path / "lagged")["lag"]
     values = scope["values"].compute()
     np.testing.assert_allclose(lagged.reindex(ref.ids), ref.lag(values), rtol=1e-12, atol=1e-12)
+
+
+def test_point_geometries_of_a_dask_geopandas_frame(client):
+    dgpd = pytest.importorskip("dask_geopandas")
+    gpd = pytest.importorskip("geopandas")
+    df = points(150, seed=12)
+    frame = gpd.GeoDataFrame(geometry=gpd.points_from_xy(df["x"], df["y"]), index=df.index)
+    table = vd.within_distance(dgpd.from_geopandas(frame, npartitions=3), 0.1, partition=False, check_ids=False)
+    same(table, quiet(vicino.within_distance, frame, 0.1))

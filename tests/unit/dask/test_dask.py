@@ -239,6 +239,12 @@ def test_worker_errors_come_back_as_the_same_vicino_errors(client):
         vd.k_nearest(dd.from_pandas(repeated, npartitions=2, sort=False), 3)
     with pytest.raises(vicino.InvalidTypeError):
         vd.k_nearest(df, 3)
+    with pytest.raises(vicino.InvalidInputError, match="no units"):
+        vd.k_nearest(dd.from_pandas(df.iloc[:0], npartitions=1), 3)
+    with pytest.raises(vicino.IdError, match="name a column"):
+        vd.k_nearest(dd.from_pandas(df, npartitions=2), 3, ids="nowhere")
+    with pytest.raises(vicino.InvalidParameterError, match="contiguity rule"):
+        vd.contiguity(dd.from_pandas(df, npartitions=2), "bishop")
     table = vd.k_nearest(dd.from_pandas(df, npartitions=2), 3)
     v = pd.Series(np.arange(len(df), dtype=float), index=df.index)
     with pytest.raises(vicino.IdError, match="without values"):

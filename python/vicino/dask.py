@@ -86,7 +86,11 @@ Delayed = Any  # dask.delayed.Delayed (untyped)
 
 # ---- small numeric helpers (vectorized) -------------------------------------------
 def _hilbert(x: np.ndarray, y: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Hilbert-curve index of each point on a 2^BITS grid over the box [lo, hi] (Skilling's rotation form)."""
+    """Hilbert-curve index of each point on a 2^BITS grid over the box [lo, hi].
+
+    The quadrant-by-quadrant conversion with rotations (Hilbert 1891; as in Warren, Hacker's Delight,
+    ch. 16; from memory). Only locality matters here: the results never depend on the key.
+    """
     side = 1 << BITS
     span = np.where(hi > lo, hi - lo, 1.0)
     ix = np.clip(((x - lo[0]) / span[0] * (side - 1)).astype(np.int64), 0, side - 1)

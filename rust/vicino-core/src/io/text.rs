@@ -184,6 +184,34 @@ fn index(field: &[u8], path: &str, line: u64, n: u64, what: &str) -> Result<u32>
     Ok((v - 1) as u32)
 }
 
+/// Powers of ten that are exact in binary64.
+const EXACT_TENS: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20,
+    1e21, 1e22,
+];
+
+/// A plain decimal `digits.digits` whose digits, without the point, form a
+/// whole number below 2^53: then m / 10^f is one correctly rounded division
+/// of two exact numbers, so it equals the correctly rounded value of the
+/// text (Clinger 1990, the fast path). None for anything else.
+#[inline]
+fn short_decimal(field: &[u8]) -> Option<f64> {
+    let dot = field.iter().position(|&b| b == b'.')?;
+    let (whole, frac) = (&field[..dot], &field[dot + 1..]);
+    if frac.is_empty() || whole.len() + frac.len() > 15 {
+        return None; // 15 digits: always below 2^53
+    }
+    let mut m = 0u64;
+    for &b in whole.iter().chain(frac) {
+        let d = b.wrapping_sub(b'0');
+        if d > 9 {
+            return None;
+        }
+        m = m * 10 + d as u64;
+    }
+    Some(m as f64 / EXACT_TENS[frac.len()])
+}
+
 /// A value field: a finite float.
 #[inline]
 fn value(field: &[u8], path: &str, line: u64) -> Result<f64> {
@@ -191,6 +219,9 @@ fn value(field: &[u8], path: &str, line: u64) -> Result<f64> {
         if v < (1 << 53) {
             return Ok(v as f64); // whole numbers (binary weights) are exact
         }
+    }
+    if let Some(v) = short_decimal(field) {
+        return Ok(v);
     }
     let text = std::str::from_utf8(field).unwrap_or("?");
     let v: f64 = text.parse().map_err(|_| bad(path, line, format!("the weight {text:?} is not a number")))?;
@@ -543,6 +574,26 @@ mod tests {
         let mut out = Vec::new();
         push_f64(&mut out, 0.25);
         assert_eq!(out, b"0.25");
+    }
+
+    #[test]
+    fn short_decimals_read_as_the_standard_parser_reads_them() {
+        // Rust's str::parse (correctly rounded) as the reference
+        let mut s = 7u64;
+        for _ in 0..200_000 {
+            s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            let digits = (s >> 60) as usize % 15 + 1;
+            let frac = 1 + (s >> 40) as usize % digits.max(1);
+            let m = (s >> 11) % 10u64.pow(digits as u32);
+            let text = format!("{m:0digits$}");
+            let (w, f) = text.split_at(digits - frac.min(digits));
+            let field = format!("{w}.{f}");
+            let want: f64 = field.parse().unwrap();
+            assert_eq!(short_decimal(field.as_bytes()).map(f64::to_bits), Some(want.to_bits()), "{field}");
+        }
+        for no in ["1e5", "-0.5", "1.", "12345678901234.56", "0.1234567890123456", "1.2.3", "nan"] {
+            assert_eq!(short_decimal(no.as_bytes()), None, "{no}");
+        }
     }
 
     #[test]

@@ -63,6 +63,42 @@ pub fn hessenberg(a: &mut [f64], n: usize) {
     }
 }
 
+/// Balance `a` in place by a diagonal similarity with powers of two (exact;
+/// Parlett and Reinsch 1969), so that each row and column have comparable
+/// norms: weights far apart in magnitude otherwise let the QR iteration
+/// take a small but significant subdiagonal for rounding.
+pub fn balance(a: &mut [f64], n: usize) {
+    for _ in 0..200 {
+        let mut done = true;
+        for i in 0..n {
+            let c: f64 = (0..n).filter(|&j| j != i).map(|j| a[j * n + i].abs()).sum();
+            let r: f64 = (0..n).filter(|&j| j != i).map(|j| a[i * n + j].abs()).sum();
+            if c == 0.0 || r == 0.0 {
+                continue;
+            }
+            let (mut f, mut cc, s) = (1.0f64, c, c + r);
+            while cc < r / 2.0 && f < 1e150 {
+                f *= 2.0;
+                cc *= 4.0;
+            }
+            while cc > r * 2.0 && f > 1e-150 {
+                f /= 2.0;
+                cc /= 4.0;
+            }
+            if (cc + r) / f < 0.95 * s {
+                done = false;
+                for j in 0..n {
+                    a[i * n + j] /= f;
+                    a[j * n + i] *= f;
+                }
+            }
+        }
+        if done {
+            break;
+        }
+    }
+}
+
 fn sign(a: f64, b: f64) -> f64 {
     if b >= 0.0 {
         a.abs()

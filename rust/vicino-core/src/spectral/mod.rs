@@ -389,6 +389,15 @@ fn dense_of(w: CsrRef<'_>) -> Vec<f64> {
     a
 }
 
+/// Whether a block suits the dense route: its weights within 10^40 of each
+/// other. A dense solver's error is relative to the largest weight, so it
+/// would lose the eigenvalues of faint cycles beside strong links, which the
+/// (multiplicative) power iteration keeps.
+fn dense_suits(w: CsrRef<'_>) -> bool {
+    let (lo, hi) = w.data().iter().fold((f64::INFINITY, 0.0f64), |(a, b), &x| (a.min(x), b.max(x)));
+    w.n() <= DENSE_MAX && lo > 0.0 && hi <= lo * 1e40
+}
+
 /// Backward error of a dense solve: a few rounding units of ||W||_F per unit.
 fn dense_error(w: CsrRef<'_>) -> f64 {
     let fro = w.data().iter().map(|x| x * x).sum::<f64>().sqrt();
@@ -399,6 +408,7 @@ fn dense_error(w: CsrRef<'_>) -> f64 {
 fn dense_eigenvalues(w: CsrRef<'_>) -> Result<Vec<(f64, f64)>> {
     let n = w.n();
     let mut a = dense_of(w);
+    dense::balance(&mut a, n);
     dense::hessenberg(&mut a, n);
     dense::hessenberg_eigenvalues(&mut a, n).ok_or(Error::EigenNotConverged {
         what: "the dense eigenvalues (Francis QR)",
@@ -416,7 +426,8 @@ fn large_block_radius(b: CsrRef<'_>, floor: f64, guard: &Guard) -> Result<(f64, 
         Err(Error::NotConverged { iterations, low, high }) => {
             // the bracket did not close: the rightmost eigenvalue by Arnoldi
             match arnoldi::real_end(b, true, 1e-10, guard) {
-                Ok(r) if r.value >= low - r.error && r.value <= high + r.error => {
+                // accepted only when sharp and inside the bracket, which always holds rho
+                Ok(r) if r.error <= 1e-8 * r.value && r.value >= low && r.value <= high => {
                     Ok((r.value, r.error.min(high - low), iterations + r.products, SpectralMethod::Arnoldi))
                 }
                 Err(Error::Interrupted) => Err(Error::Interrupted),
@@ -434,7 +445,7 @@ fn general(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
         let (value, err, it, method) = match block {
             Block::Single(x) => (x, 0.0, 0, SpectralMethod::Dense),
             Block::Cycle { len, g } => (g, 4.0 * len as f64 * f64::EPSILON * g, 0, SpectralMethod::Cycle),
-            Block::Matrix(b) if b.n() <= DENSE_MAX => {
+            Block::Matrix(b) if dense_suits(b.view()) => {
                 let ev = dense_eigenvalues(b.view())?;
                 let rho = ev.iter().fold(0.0f64, |r, &(re, im)| r.max(re.hypot(im)));
                 (rho, dense_error(b.view()), 0, SpectralMethod::Dense)
@@ -577,7 +588,7 @@ fn general_bounds(w: CsrRef<'_>, constant: Option<f64>, tol: f64, guard: &Guard)
                 lo.keep(End(low, err, SpectralMethod::Cycle), true);
                 hi.keep(End(g, err, SpectralMethod::Cycle), false);
             }
-            Block::Matrix(b) if b.n() <= DENSE_MAX => {
+            Block::Matrix(b) if dense_suits(b.view()) => {
                 let (l, h) = dense_real_ends(b.view())?;
                 lo.keep(l, true);
                 hi.keep(h, false);

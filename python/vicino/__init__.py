@@ -41,6 +41,7 @@ from .errors import (
     VicinoError,
 )
 from .io import read
+from .spectrum import EigenvalueBounds
 from .stats import AnalyticInference, MoranResult, PermutationInference, moran
 from .weights import Step, Weights
 
@@ -56,6 +57,7 @@ __all__ = [
     "Components",
     "ConvergenceError",
     "DuplicateLocationWarning",
+    "EigenvalueBounds",
     "FileAccessError",
     "FileFormatError",
     "Finding",

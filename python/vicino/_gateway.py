@@ -229,9 +229,16 @@ def standardize(w: CoreMatrix, method: str, keep_islands: bool, ids: pd.Index) -
     return owned(_run(_core.standardize, ids, w, method, keep_islands))
 
 
-def spectral_radius(w: CoreMatrix, ids: pd.Index) -> tuple[float, int, str]:
-    """(spectral radius, iterations, method)."""
+def spectral_radius(w: CoreMatrix, ids: pd.Index) -> tuple[float, int, str, float]:
+    """(spectral radius, iterations, method, error bound)."""
     return _run(_core.spectral_radius, ids, w)
+
+
+def eigenvalue_bounds(
+    w: CoreMatrix, tol: float, ids: pd.Index
+) -> tuple[tuple[float, float, str], tuple[float, float, str], int]:
+    """((smallest real eigenvalue, error, method), (largest, error, method), products with W)."""
+    return _run(_core.eigenvalue_bounds, ids, w, tol)
 
 
 def lag(w: CoreMatrix, values: np.ndarray, ids: pd.Index) -> np.ndarray:

@@ -42,8 +42,8 @@ SUBNORMAL = 2.0**-1074
 def test_standardize_matches_dense_formulas(m, method, keep):
     w = weights_of(m)
     out = attempt(w.standardize, method, islands="keep" if keep else "raise")
-    if len(islands(m.dense)) and not keep:
-        refused(out, vicino.IslandError)
+    if len(islands(m.dense)) and not keep and method in ("row", "variance_stabilizing"):
+        refused(out, vicino.IslandError)  # only the methods that divide by a row's own sum refuse islands
         return
     empty = m.dense.max() == 0
     if empty and method not in ("row", "binary", "none"):
@@ -55,8 +55,6 @@ def test_standardize_matches_dense_formulas(m, method, keep):
             # reference: networkx (no cycle: the spectral radius is 0, nothing to divide by)
             refused(out, vicino.InvalidMatrixError)
             return
-        if not out.ok and isinstance(out.error, vicino.ConvergenceError) and (m.dense != m.dense.T).any():
-            return  # documented limit of the iteration on non-symmetrizable matrices
         rho = spectral_radius(m.dense)  # reference: numpy.linalg.eigvals
         if rho < 1e-9 * m.dense.max() and open_bug("spectral-radius-small-blocks"):
             return  # held back: see test_bug_spectral_radius_of_a_faint_cycle

@@ -285,10 +285,23 @@ pub enum Error {
     )]
     Unlocated { what: &'static str, units: Units },
     #[error(
-        "the largest eigenvalue did not converge in {iterations} iterations \
-         (last estimate {estimate}); use \"max_entry\" or \"row\" instead, or report this case"
+        "the largest eigenvalue did not converge in {iterations} iterations: it lies between \
+         {low} and {high} (Collatz-Wielandt bounds); use \"max_entry\" or \"row\" instead, or report this case"
     )]
-    NotConverged { iterations: usize, estimate: f64 },
+    NotConverged { iterations: usize, low: f64, high: f64 },
+    #[error(
+        "{what} did not converge in {products} products with the matrix: the last estimate {value} has a \
+         residual of {error}, above the {wanted} wanted; loosen tol, or report this case"
+    )]
+    EigenNotConverged { what: &'static str, products: usize, value: f64, error: f64, wanted: f64 },
+    #[error(
+        "the {} real eigenvalue lies inside the spectrum, out of reach of the Arnoldi iteration: the {count} \
+         eigenvalues with the {} real parts are all complex (the first {re} +- {im}i, after {products} products \
+         with the matrix); compute the eigenvalues densely if the matrix is small enough, or use the narrower \
+         interval (-1 / rho, 1 / rho) from spectral_radius()",
+        if *largest { "largest" } else { "smallest" }, if *largest { "largest" } else { "smallest" }
+    )]
+    NoRealEigenvalue { count: usize, re: f64, im: f64, largest: bool, products: usize },
     #[error(
         "{what} would need about {} of memory, more than the limit of {}: {advice} \
          (vicino.set_memory_limit raises the limit)",

@@ -11,8 +11,12 @@
 //! | none | unchanged |
 //!
 //! The sparsity pattern never changes, so only new data are returned.
-//! Units without neighbours (islands) are refused unless asked to keep them;
-//! their rows stay empty (zero). O(nnz), plus the eigenvalue iteration for
+//! Units without neighbours (islands) have empty (zero) rows. The two
+//! methods that divide each row by a quantity of that row (its sum for
+//! `row`, its root sum of squares for `variance_stabilizing`) refuse them
+//! unless asked to keep them, since such a row has nothing to divide by;
+//! the others scale every weight alike (or set it to 1), so islands need no
+//! decision and are kept. O(nnz), plus the eigenvalue iteration for
 //! `max_eigenvalue`.
 
 use crate::csr::CsrRef;
@@ -46,6 +50,13 @@ impl Method {
             "none" => Self::None,
             _ => return Err(Error::UnknownStandardization { name: name.to_string() }),
         })
+    }
+}
+
+impl Method {
+    /// Whether each row is divided by a quantity of its own (which an island lacks).
+    pub fn divides_rows(self) -> bool {
+        matches!(self, Self::Row | Self::VarianceStabilizing)
     }
 }
 
@@ -91,7 +102,7 @@ fn each_row(w: CsrRef<'_>, mut f: impl FnMut(&[f64], &mut Vec<f64>)) -> Vec<f64>
 /// assert_eq!(d, vec![0.25, 0.75, 1.0, 1.0]);
 /// ```
 pub fn standardize(w: CsrRef<'_>, method: Method, islands: Islands, guard: &Guard) -> Result<Vec<f64>> {
-    if islands == Islands::Raise {
+    if islands == Islands::Raise && method.divides_rows() {
         let isl = w.islands();
         if !isl.is_empty() {
             return Err(Error::Islands { units: Units::of(&isl) });

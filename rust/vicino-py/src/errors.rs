@@ -97,7 +97,7 @@ fn class_name(e: &Error) -> &'static str {
         | EdgeWeight { .. }
         | SelfLinks { .. } => "InvalidMatrixError",
         LengthMismatch { .. } | NonFiniteValues { .. } | ConstantValues | Overflow { .. } => "InvalidValuesError",
-        NotConverged { .. } => "ConvergenceError",
+        NotConverged { .. } | EigenNotConverged { .. } | NoRealEigenvalue { .. } => "ConvergenceError",
         TooLarge { .. } => "TooLargeError",
         BadFile { .. } => "FileFormatError",
         FileAccess { .. } => "FileAccessError",

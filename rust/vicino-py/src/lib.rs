@@ -43,6 +43,7 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(weights::validate, m)?)?;
     m.add_function(wrap_pyfunction!(weights::standardize, m)?)?;
     m.add_function(wrap_pyfunction!(weights::spectral_radius, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::eigenvalue_bounds, m)?)?;
     m.add_function(wrap_pyfunction!(weights::lag_vector, m)?)?;
     m.add_function(wrap_pyfunction!(weights::lag_columns, m)?)?;
     m.add_function(wrap_pyfunction!(stats::moran, m)?)?;

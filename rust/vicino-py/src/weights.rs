@@ -44,17 +44,40 @@ pub fn standardize<'py>(
     Ok(out.into_pyarray(py))
 }
 
-/// Spectral radius: (value, iterations, method name).
+fn method_name(m: spectral::SpectralMethod) -> &'static str {
+    use spectral::SpectralMethod::*;
+    match m {
+        ConstantSums => "constant sums",
+        Lanczos => "Lanczos",
+        ShiftedPower => "shifted power iteration",
+        Dense => "dense QR",
+        Cycle => "directed cycle (closed form)",
+        ThickLanczos => "thick-restart Lanczos",
+        Arnoldi => "implicitly restarted Arnoldi",
+        Blocks => "strongly connected blocks",
+        Bipartite => "bipartite links (spectrum symmetric about 0)",
+    }
+}
+
+/// Spectral radius: (value, iterations, method name, error bound).
 #[pyfunction]
-pub fn spectral_radius<'py>(py: Python<'py>, w: CsrArgs<'py>) -> PyResult<(f64, usize, &'static str)> {
+pub fn spectral_radius<'py>(py: Python<'py>, w: CsrArgs<'py>) -> PyResult<(f64, usize, &'static str, f64)> {
     let w = w.view(py)?;
     let r = run(py, |g| spectral::spectral_radius(w, g))?;
-    let name = match r.method {
-        spectral::SpectralMethod::ConstantSums => "constant sums",
-        spectral::SpectralMethod::Lanczos => "Lanczos",
-        spectral::SpectralMethod::ShiftedPower => "shifted power iteration",
-    };
-    Ok((r.value, r.iterations, name))
+    Ok((r.value, r.iterations, method_name(r.method), r.error))
+}
+
+/// Smallest and largest real eigenvalues: ((min, error, method), (max, error, method), products).
+#[pyfunction]
+#[allow(clippy::type_complexity)]
+pub fn eigenvalue_bounds<'py>(
+    py: Python<'py>,
+    w: CsrArgs<'py>,
+    tol: f64,
+) -> PyResult<((f64, f64, &'static str), (f64, f64, &'static str), usize)> {
+    let w = w.view(py)?;
+    let b = run(py, |g| spectral::eigenvalue_bounds(w, tol, g))?;
+    Ok(((b.min, b.min_error, method_name(b.min_method)), (b.max, b.max_error, method_name(b.max_method)), b.products))
 }
 
 /// W x for a vector.

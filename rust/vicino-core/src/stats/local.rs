@@ -102,7 +102,6 @@ pub struct LocalGetisOrd {
     pub permutation: Option<LocalPermutation>,
 }
 
-
 /// Sums of one unit's links to other units (a self-link is kept apart).
 #[derive(Debug, Clone, Copy, Default)]
 struct RowFacts {
@@ -622,7 +621,7 @@ mod tests {
         // identifies the set drawn (exactly: every sum is below 2^53):
         // 50 distinct units other than unit 5
         let n = 52;
-        let v: Vec<f64> = (0..n).map(|j| 2f64.powi(j as i32)).collect();
+        let v: Vec<f64> = (0..n).map(|j| 2f64.powi(j)).collect();
         let mut s = Scratch { wts: vec![1.0; 50], ..Scratch::default() };
         let mut rng = unit_stream(9, 5);
         for _ in 0..100 {
@@ -663,8 +662,16 @@ mod tests {
             local_moran(selfish.view(), &[1.0, 2.0, 4.0], 0, 0, Alternative::TwoSided, &Guard::unlimited()),
             Err(Error::SelfLinks { .. })
         ));
-        assert!(local_getis_ord(selfish.view(), &[1.0, 2.0, 4.0], true, 0, 0, Alternative::TwoSided, &Guard::unlimited())
-            .is_ok());
+        assert!(local_getis_ord(
+            selfish.view(),
+            &[1.0, 2.0, 4.0],
+            true,
+            0,
+            0,
+            Alternative::TwoSided,
+            &Guard::unlimited()
+        )
+        .is_ok());
         let two = Csr::from_rows(vec![vec![(1, 1.0)], vec![(0, 1.0)]]);
         assert!(matches!(
             local_moran(two.view(), &[1.0, 2.0], 0, 0, Alternative::TwoSided, &Guard::unlimited()),

@@ -289,7 +289,14 @@ where
 }
 
 /// Common checks: enough units, permutations other than 1, no self-links where refused.
-fn check(w: CsrRef<'_>, what: &'static str, permutations: usize, self_links: bool) -> Result<()> {
+/// `what` names the statistic in a refusal of too few units, `self_what` in a refusal of self-links.
+fn check(
+    w: CsrRef<'_>,
+    what: &'static str,
+    self_what: &'static str,
+    permutations: usize,
+    self_links: bool,
+) -> Result<()> {
     let n = w.n();
     if n < 3 {
         return Err(Error::TooFewUnits { what, need: 3, n });
@@ -304,7 +311,7 @@ fn check(w: CsrRef<'_>, what: &'static str, permutations: usize, self_links: boo
     if !self_links {
         let units = Units::find(n, |i| w.row(i).0.iter().any(|&j| j as usize == i));
         if !units.is_empty() {
-            return Err(Error::SelfLinks { what, units });
+            return Err(Error::SelfLinks { what: self_what, units });
         }
     }
     Ok(())
@@ -330,7 +337,7 @@ pub fn local_moran(
     alt: Alternative,
     guard: &Guard,
 ) -> Result<LocalMoran> {
-    check(w, "local Moran's I with its variance", permutations, false)?;
+    check(w, "local Moran's I with its variance", "local Moran's I", permutations, false)?;
     let n = w.n();
     let z = centred(w, x)?;
     let (moderated, e) = moderate(w);
@@ -430,8 +437,8 @@ pub fn local_getis_ord(
     alt: Alternative,
     guard: &Guard,
 ) -> Result<LocalGetisOrd> {
-    let what = if star { "G_i*" } else { "G_i (star=True counts each unit's own value)" };
-    check(w, what, permutations, star)?;
+    let what = if star { "G_i* with its variance" } else { "G_i with its variance" };
+    check(w, what, "G_i (star=True counts each unit's own value)", permutations, star)?;
     let n = w.n();
     let z = centred(w, x)?;
     let (moderated, e) = moderate(w);

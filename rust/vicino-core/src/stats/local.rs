@@ -23,7 +23,8 @@
 //! (seed ^ LOCAL, i) of [`permutation::stream`], so the draws of every unit
 //! are the same bit for bit for any number of threads and any order of
 //! work. Each draw needs only the neighbour sum sum_m w_im v_(j_m): up to 48
-//! neighbours by rejection (a repeated index is drawn again), more by a
+//! neighbours by rejection (a repeated index is drawn again; two bounded
+//! integers from each 64-bit word, by Lemire's method on 32-bit halves), more by a
 //! partial Fisher-Yates shuffle of a per-thread table of positions that is
 //! put back after each draw. O(R sum_i k_i) time, O(n) memory; units run in
 //! parallel. The p-value is (M + 1) / (R + 1) (Hope 1968) with M the draws
@@ -43,6 +44,7 @@ use crate::csr::CsrRef;
 use crate::error::{Error, Result, Units};
 use crate::frame::{moderate, pow2_exponent, times_pow2};
 use crate::guard::Guard;
+use rand_core::Rng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 
@@ -162,18 +164,57 @@ struct Scratch {
     table: Vec<u32>,
 }
 
+/// A unit's generator, handing out its 64-bit words whole or as two 32-bit halves.
+struct Words {
+    rng: Xoshiro256PlusPlus,
+    word: u64,
+    left: u8,
+}
+
+impl Words {
+    fn new(rng: Xoshiro256PlusPlus) -> Self {
+        Words { rng, word: 0, left: 0 }
+    }
+
+    #[inline]
+    fn next32(&mut self) -> u32 {
+        if self.left == 0 {
+            self.word = self.rng.next_u64();
+            self.left = 2;
+        }
+        self.left -= 1;
+        let x = self.word as u32;
+        self.word >>= 32;
+        x
+    }
+
+    /// Unbiased integer in [0, bound), Lemire (2019) on 32-bit halves: one
+    /// generator step gives two bounded integers.
+    #[inline]
+    fn below32(&mut self, bound: u32) -> u32 {
+        let mut m = u64::from(self.next32()) * u64::from(bound);
+        if (m as u32) < bound {
+            let threshold = bound.wrapping_neg() % bound;
+            while (m as u32) < threshold {
+                m = u64::from(self.next32()) * u64::from(bound);
+            }
+        }
+        (m >> 32) as u32
+    }
+}
+
 /// One conditional draw for unit i: sum_m wts[m] v[j_m], the j_m distinct and != i.
 #[inline]
-fn draw_sum(rng: &mut Xoshiro256PlusPlus, i: usize, v: &[f64], s: &mut Scratch) -> f64 {
+fn draw_sum(words: &mut Words, i: usize, v: &[f64], s: &mut Scratch) -> f64 {
     let n = v.len();
     let others = (n - 1) as u64;
     let Scratch { wts, drawn, swaps, table } = s;
     let mut sum = 0.0;
-    if wts.len() <= REJECTION_MAX {
+    if wts.len() <= REJECTION_MAX && others <= u64::from(u32::MAX) {
         drawn.clear();
         for &wm in wts.iter() {
             let j = loop {
-                let u = below(rng, others) as usize;
+                let u = words.below32(others as u32) as usize;
                 let j = (u + usize::from(u >= i)) as u32;
                 if !drawn.contains(&j) {
                     break j;
@@ -190,7 +231,7 @@ fn draw_sum(rng: &mut Xoshiro256PlusPlus, i: usize, v: &[f64], s: &mut Scratch) 
         swaps.clear();
         table.swap(i, n - 1);
         for (m, &wm) in wts.iter().enumerate() {
-            let t = m + below(rng, others - m as u64) as usize;
+            let t = m + below(&mut words.rng, others - m as u64) as usize;
             table.swap(m, t);
             swaps.push(t as u32);
             sum += wm * v[table[m] as usize];
@@ -215,14 +256,14 @@ struct Run {
 
 /// R conditional draws of unit i: (extreme count, mean and std of the statistic, z).
 fn unit_draws(i: usize, v: &[f64], t: UnitTest, run: Run, s: &mut Scratch) -> (u32, f64, f64, f64) {
-    let mut rng = unit_stream(run.seed, i);
+    let mut words = Words::new(unit_stream(run.seed, i));
     let total: f64 = s.wts.iter().sum();
     // rounding of a sum of k products, with room to spare
     let tol = 4.0 * (s.wts.len() as f64 + 1.0) * f64::EPSILON * total * run.vmax;
     let far = (t.observed - t.centre).abs() - tol;
     let (mut extreme, mut sum_d, mut sum_d2) = (0u32, 0.0f64, 0.0f64);
     for _ in 0..run.permutations {
-        let x = draw_sum(&mut rng, i, v, s);
+        let x = draw_sum(&mut words, i, v, s);
         let hit = t.sign == 0.0
             || match run.alt {
                 Alternative::TwoSided => (x - t.centre).abs() >= far,
@@ -608,12 +649,23 @@ mod tests {
     }
 
     #[test]
+    fn halves_are_uniform() {
+        // 60,000 integers below 3 (two per generator step): about 20,000 each, sd about 115
+        let mut words = Words::new(unit_stream(1, 2));
+        let mut counts = [0i64; 3];
+        for _ in 0..60_000 {
+            counts[words.below32(3) as usize] += 1;
+        }
+        assert!(counts.iter().all(|&c| (c - 20_000).abs() < 600), "{counts:?}");
+    }
+
+    #[test]
     fn rejection_draws_are_distinct_and_exclude_the_unit() {
         let v = vec![0.0; 12];
         let mut s = Scratch { wts: vec![1.0; 5], ..Scratch::default() };
-        let mut rng = unit_stream(3, 7);
+        let mut words = Words::new(unit_stream(3, 7));
         for _ in 0..500 {
-            draw_sum(&mut rng, 7, &v, &mut s);
+            draw_sum(&mut words, 7, &v, &mut s);
             let mut p = s.drawn.clone();
             p.sort_unstable();
             p.dedup();
@@ -630,9 +682,9 @@ mod tests {
         let n = 52;
         let v: Vec<f64> = (0..n).map(|j| 2f64.powi(j)).collect();
         let mut s = Scratch { wts: vec![1.0; 50], ..Scratch::default() };
-        let mut rng = unit_stream(9, 5);
+        let mut words = Words::new(unit_stream(9, 5));
         for _ in 0..100 {
-            let sum = draw_sum(&mut rng, 5, &v, &mut s);
+            let sum = draw_sum(&mut words, 5, &v, &mut s);
             let bits = sum as u64;
             assert_eq!(bits.count_ones(), 50);
             assert_eq!(bits & (1 << 5), 0);

@@ -548,3 +548,34 @@ def test_constant_neighbourhood_values_give_p_one():
     x = np.array([3.0, 1.0, 5.0, 2.0, 4.0])  # mean 3: unit 0 at the mean
     r = vicino.local_moran(x, vicino.from_matrix(a), permutations=99, seed=1)
     assert r.statistic[0] == 0.0 and r.p_permutation[0] == 1.0  # reference: Hope (1968), ties count
+
+
+def test_results_survive_pickle_and_copies():
+    import copy
+    import pickle
+
+    w = vicino.k_nearest(_points(25, 3), 3).standardize("row")
+    x = _values(25, "skewed", seed=1)
+    for r in (vicino.local_moran(x, w, permutations=19, seed=1), vicino.local_getis_ord(x, w, permutations=19, seed=1)):
+        for twin in (pickle.loads(pickle.dumps(r)), copy.copy(r), copy.deepcopy(r)):
+            assert type(twin) is type(r)
+            np.testing.assert_array_equal(twin.p_permutation, r.p_permutation)
+            assert twin.table().equals(r.table())
+
+
+def test_readme_local_example_runs():
+    import re
+    from pathlib import Path
+
+    pytest.importorskip("matplotlib").use("Agg")
+    text = (Path(__file__).parents[2] / "README.md").read_text()
+    session = re.search(r"## A short session\n\n```python\n(.*?)```", text, re.S)
+    local = re.search(r"## Where is the clustering\?.*?\n```python\n(.*?)```", text, re.S)
+    assert session and local, "the README's examples moved; update this test"
+    scope: dict = {}
+    code = "\n".join(line for line in session.group(1).splitlines() if not line.startswith("# ") and line != "w")
+    exec(compile(code + "\n" + local.group(1), "README.md", "exec"), scope)
+    r, wr = scope["local"], scope["wr"]
+    # reference: Anselin (1995), sum_i I_i = S0 I, with vicino.moran checked against Cliff and Ord
+    assert r.statistic.sum() == pytest.approx(wr.n * scope["result"].statistic, rel=1e-10)
+    assert r.adjust == "fdr" and scope["hot"].star

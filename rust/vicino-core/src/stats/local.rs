@@ -28,8 +28,8 @@
 //! partial Fisher-Yates shuffle of a per-thread table of positions that is
 //! put back after each draw. Draws go in blocks of 64: their positions first,
 //! then the values are gathered in a loop without branches, so that many
-//! loads are in flight at once (about three times faster at n = 10^5). O(R sum_i k_i) time, O(n) memory; units run in
-//! parallel. The p-value is (M + 1) / (R + 1) (Hope 1968) with M the draws
+//! loads are in flight at once (about three times faster at n = 20,000).
+//! O(R sum_i k_i) time, O(n) memory; units run in parallel. The p-value is (M + 1) / (R + 1) (Hope 1968) with M the draws
 //! at least as extreme as the observed statistic: `greater` at least as
 //! large, `less` at least as small, `two-sided` at least as far from the
 //! exact conditional mean; sums within a few rounding errors of the observed

@@ -4,7 +4,9 @@ Build weights from locations (:func:`k_nearest`, :func:`within_distance`)
 from polygons (:func:`contiguity`, :func:`cliff_ord`) or from a matrix
 (:func:`from_matrix`); check them with :meth:`Weights.audit`, repair and
 combine them, standardize them, compute lags with
-:meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`.
+:meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`, find where it is with
+:func:`local_moran` and :func:`local_getis_ord`, and draw it with
+:func:`moran_plot` and :func:`cluster_map`.
 """
 
 from importlib.metadata import PackageNotFoundError, version
@@ -41,6 +43,8 @@ from .errors import (
     VicinoError,
 )
 from .io import read
+from .local import LocalGetisOrdResult, LocalMoranResult, local_getis_ord, local_moran
+from .plots import cluster_map, moran_plot
 from .spectrum import EigenvalueBounds
 from .stats import AnalyticInference, MoranResult, PermutationInference, moran
 from .weights import Step, Weights
@@ -70,6 +74,8 @@ __all__ = [
     "InvalidTypeError",
     "InvalidValuesError",
     "IslandError",
+    "LocalGetisOrdResult",
+    "LocalMoranResult",
     "MoranResult",
     "PermutationInference",
     "Step",
@@ -77,6 +83,7 @@ __all__ = [
     "VicinoError",
     "Weights",
     "cliff_ord",
+    "cluster_map",
     "contiguity",
     "from_edges",
     "from_matrix",
@@ -85,7 +92,10 @@ __all__ = [
     "inverse_distance",
     "k_nearest",
     "kernel_weights",
+    "local_getis_ord",
+    "local_moran",
     "moran",
+    "moran_plot",
     "read",
     "set_memory_limit",
     "within_distance",

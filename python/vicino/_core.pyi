@@ -11,7 +11,10 @@ import numpy.typing as npt
 __all__ = [
     "EARTH_RADIUS_KM",
     "HealthOut",
+    "LocalGetisOrdOut",
+    "LocalMoranOut",
     "MoranOut",
+    "adjust_p_values",
     "centroids",
     "cliff_ord",
     "combine",
@@ -28,6 +31,8 @@ __all__ = [
     "kernel_weights",
     "lag_columns",
     "lag_vector",
+    "local_getis_ord",
+    "local_moran",
     "moran",
     "neighbour_counts",
     "order",
@@ -158,3 +163,49 @@ def inverse_distance(
 def kernel_weights(
     xy: _F, metric: _Metric, kernel: _Kernel, bandwidth: tuple[str, float], self_weight: bool
 ) -> tuple[_Csr, _F, int]: ...
+
+# (extreme counts, p-values, mean, std, z) of the conditional permutation tests
+_LocalPermutation = tuple[npt.NDArray[np.uint32], _F, _F, _F, _F]
+_Adjustment = Literal["none", "fdr", "bonferroni"]
+
+@final
+class LocalMoranOut:
+    @property
+    def statistic(self) -> _F: ...
+    @property
+    def expected(self) -> _F: ...
+    @property
+    def variance(self) -> _F: ...
+    @property
+    def z(self) -> _F: ...
+    @property
+    def standardized(self) -> _F: ...
+    @property
+    def lag(self) -> _F: ...
+    @property
+    def quadrant(self) -> npt.NDArray[np.int8]: ...
+    @property
+    def islands(self) -> list[int]: ...
+    @property
+    def kurtosis(self) -> float: ...
+    @property
+    def permutation(self) -> _LocalPermutation | None: ...
+
+@final
+class LocalGetisOrdOut:
+    @property
+    def statistic(self) -> _F: ...
+    @property
+    def expected(self) -> _F: ...
+    @property
+    def z(self) -> _F: ...
+    @property
+    def islands(self) -> list[int]: ...
+    @property
+    def permutation(self) -> _LocalPermutation | None: ...
+
+def local_moran(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> LocalMoranOut: ...
+def local_getis_ord(
+    w: _W, x: _F, star: bool, permutations: int, seed: int, alternative: _Alternative
+) -> LocalGetisOrdOut: ...
+def adjust_p_values(p: _F, method: _Adjustment) -> _F: ...

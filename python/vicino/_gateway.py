@@ -254,6 +254,23 @@ def moran(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternativ
     return _run(_core.moran, ids, w, frozen(x), permutations, seed, alternative)
 
 
+def local_moran(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternative: str, ids: pd.Index) -> Any:
+    """Local Moran's I of every unit (a `_core.LocalMoranOut`)."""
+    return _run(_core.local_moran, ids, w, frozen(x), permutations, seed, alternative)
+
+
+def local_getis_ord(
+    w: CoreMatrix, x: np.ndarray, star: bool, permutations: int, seed: int, alternative: str, ids: pd.Index
+) -> Any:
+    """Local G_i or G_i* of every unit (a `_core.LocalGetisOrdOut`)."""
+    return _run(_core.local_getis_ord, ids, w, frozen(x), star, permutations, seed, alternative)
+
+
+def adjust_p_values(p: np.ndarray, method: str) -> Floats:
+    """P-values adjusted for multiple tests; NaN stays NaN and is not counted."""
+    return owned(_run(_core.adjust_p_values, None, frozen(p), method))
+
+
 def health(w: CoreMatrix, ids: pd.Index) -> Any:
     """The facts of an audit (a `_core.HealthOut`)."""
     return _run(_core.health, ids, w)

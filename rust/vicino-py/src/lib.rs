@@ -9,6 +9,7 @@ mod edges;
 mod errors;
 mod graph;
 mod io;
+mod local_stats;
 mod neighbors;
 mod stats;
 mod weights;
@@ -35,6 +36,7 @@ fn set_memory_limit(nbytes: Option<u64>) -> PyResult<()> {
 #[pymodule]
 fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     errors::load(m.py())?;
+    local_stats::register(m)?;
     m.add("EARTH_RADIUS_KM", vicino_core::neighbors::EARTH_RADIUS_KM)?;
     m.add_class::<stats::MoranOut>()?;
     m.add_class::<graph::HealthOut>()?;

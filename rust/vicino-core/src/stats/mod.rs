@@ -8,6 +8,7 @@
 //!   randomization and permutation.
 
 pub mod global;
+pub mod local;
 pub mod moments;
 pub mod permutation;
 

@@ -4,13 +4,26 @@ Build weights from locations (:func:`k_nearest`, :func:`within_distance`)
 from polygons (:func:`contiguity`, :func:`cliff_ord`) or from a matrix
 (:func:`from_matrix`); check them with :meth:`Weights.audit`, repair and
 combine them, standardize them, compute lags with
-:meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`.
+:meth:`Weights.lag`, test for spatial autocorrelation with :func:`moran`,
+:func:`geary`, :func:`getis_ord` and :func:`join_counts`, and see how much the
+conclusion depends on the weights with :func:`compare`.
 """
 
 from importlib.metadata import PackageNotFoundError, version
 
 from ._gateway import get_memory_limit, set_memory_limit
 from .audit import Audit, Components, Finding
+from .autocorrelation import (
+    GearyResult,
+    GetisOrdResult,
+    JoinCount,
+    JoinCountsResult,
+    SamplingInference,
+    compare,
+    geary,
+    getis_ord,
+    join_counts,
+)
 from .build import (
     EARTH_RADIUS_KM,
     cliff_ord,
@@ -59,6 +72,8 @@ __all__ = [
     "FileAccessError",
     "FileFormatError",
     "Finding",
+    "GearyResult",
+    "GetisOrdResult",
     "IdError",
     "InternalError",
     "InvalidInputError",
@@ -68,19 +83,26 @@ __all__ = [
     "InvalidTypeError",
     "InvalidValuesError",
     "IslandError",
+    "JoinCount",
+    "JoinCountsResult",
     "MoranResult",
     "PermutationInference",
+    "SamplingInference",
     "Step",
     "TooLargeError",
     "VicinoError",
     "Weights",
     "cliff_ord",
+    "compare",
     "contiguity",
     "from_edges",
     "from_matrix",
     "from_networkx",
+    "geary",
     "get_memory_limit",
+    "getis_ord",
     "inverse_distance",
+    "join_counts",
     "k_nearest",
     "kernel_weights",
     "moran",

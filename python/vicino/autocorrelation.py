@@ -420,7 +420,7 @@ def _binary(values: Any, weights: Weights) -> tuple[np.ndarray, tuple[Any, Any],
         codes, uniques = pd.factorize(arr, sort=True)
     except TypeError:  # labels of mixed types have no order: keep them in order of appearance
         codes, uniques = pd.factorize(arr, sort=False)
-    labels = list(uniques)
+    labels = [u.item() if isinstance(u, np.generic) else u for u in uniques]  # plain Python labels
     if len(labels) > 2:
         raise InvalidValuesError(
             f"join counts need a binary variable, but the values hold {len(labels)} distinct labels "

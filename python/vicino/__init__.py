@@ -4,7 +4,9 @@ Build weights from locations (:func:`k_nearest`, :func:`within_distance`)
 from polygons (:func:`contiguity`, :func:`cliff_ord`) or from a matrix
 (:func:`from_matrix`); check them with :meth:`Weights.audit`, repair and
 combine them, standardize them, compute lags with
-:meth:`Weights.lag` and test for spatial autocorrelation with :func:`moran`, find where it is with
+:meth:`Weights.lag`, test for spatial autocorrelation with :func:`moran`,
+:func:`geary`, :func:`getis_ord` and :func:`join_counts`, see how much the
+conclusion depends on the weights with :func:`compare`, find where it is with
 :func:`local_moran` and :func:`local_getis_ord`, and draw it with
 :func:`moran_plot` and :func:`cluster_map`.
 """
@@ -13,6 +15,17 @@ from importlib.metadata import PackageNotFoundError, version
 
 from ._gateway import get_memory_limit, set_memory_limit
 from .audit import Audit, Components, Finding
+from .autocorrelation import (
+    GearyResult,
+    GetisOrdResult,
+    JoinCount,
+    JoinCountsResult,
+    SamplingInference,
+    compare,
+    geary,
+    getis_ord,
+    join_counts,
+)
 from .build import (
     EARTH_RADIUS_KM,
     cliff_ord,
@@ -65,6 +78,8 @@ __all__ = [
     "FileAccessError",
     "FileFormatError",
     "Finding",
+    "GearyResult",
+    "GetisOrdResult",
     "IdError",
     "InternalError",
     "InvalidInputError",
@@ -74,22 +89,29 @@ __all__ = [
     "InvalidTypeError",
     "InvalidValuesError",
     "IslandError",
+    "JoinCount",
+    "JoinCountsResult",
     "LocalGetisOrdResult",
     "LocalMoranResult",
     "MoranResult",
     "PermutationInference",
+    "SamplingInference",
     "Step",
     "TooLargeError",
     "VicinoError",
     "Weights",
     "cliff_ord",
     "cluster_map",
+    "compare",
     "contiguity",
     "from_edges",
     "from_matrix",
     "from_networkx",
+    "geary",
     "get_memory_limit",
+    "getis_ord",
     "inverse_distance",
+    "join_counts",
     "k_nearest",
     "kernel_weights",
     "local_getis_ord",

@@ -10,6 +10,7 @@ import numpy.typing as npt
 
 __all__ = [
     "EARTH_RADIUS_KM",
+    "GlobalOut",
     "HealthOut",
     "LocalGetisOrdOut",
     "LocalMoranOut",
@@ -24,9 +25,12 @@ __all__ = [
     "contiguity",
     "eigenvalue_bounds",
     "from_edges",
+    "geary",
     "get_memory_limit",
+    "getis_ord",
     "health",
     "inverse_distance",
+    "join_counts",
     "k_nearest",
     "kernel_weights",
     "lag_columns",
@@ -68,6 +72,9 @@ _Symmetrize = Literal["union", "intersection", "mean"]
 # ("wkb", all Well-Known Binary bytes, offsets of each unit's bytes)
 _Polygons = tuple[Literal["rings"], _F, _I] | tuple[Literal["wkb"], npt.NDArray[np.uint8], _I]
 _Links = list[tuple[int, int, float]]
+_Perm = tuple[int, float, float, float, float, _F]
+# a join count: (count, (free expected, variance, z), (non-free expected, variance, z), permutation)
+_Join = tuple[float, tuple[float, float, float], tuple[float, float, float], _Perm | None]
 
 @final
 class MoranOut:
@@ -85,6 +92,31 @@ class MoranOut:
     def s2(self) -> float: ...
     @property
     def kurtosis(self) -> float: ...
+    @property
+    def normality_variance(self) -> float: ...
+    @property
+    def normality_z(self) -> float: ...
+    @property
+    def randomization_variance(self) -> float: ...
+    @property
+    def randomization_z(self) -> float: ...
+    @property
+    def permutation(self) -> tuple[int, float, float, float, float, _F] | None: ...
+
+@final
+class GlobalOut:
+    @property
+    def statistic(self) -> float: ...
+    @property
+    def expected(self) -> float: ...
+    @property
+    def n(self) -> int: ...
+    @property
+    def s0(self) -> float: ...
+    @property
+    def s1(self) -> float: ...
+    @property
+    def s2(self) -> float: ...
     @property
     def normality_variance(self) -> float: ...
     @property
@@ -125,6 +157,11 @@ def eigenvalue_bounds(w: _W, tol: float) -> tuple[tuple[float, float, str], tupl
 def lag_vector(w: _W, x: _F) -> _F: ...
 def lag_columns(w: _W, x: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]: ...
 def moran(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> MoranOut: ...
+def geary(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> GlobalOut: ...
+def getis_ord(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> GlobalOut: ...
+def join_counts(
+    w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative
+) -> tuple[tuple[float, float, float], int, list[_Join]]: ...
 def contiguity(polygons: _Polygons, rule: _Rule, tolerance: float, metric: _Metric) -> tuple[_Csr, _F, list[int]]: ...
 def cliff_ord(
     polygons: _Polygons, border_power: float, distance_power: float, tolerance: float, metric: _Metric

@@ -271,6 +271,21 @@ def adjust_p_values(p: np.ndarray, method: str) -> Floats:
     return owned(_run(_core.adjust_p_values, None, frozen(p), method))
 
 
+def geary(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternative: str, ids: pd.Index) -> Any:
+    """Global Geary's C (a `_core.GlobalOut`)."""
+    return _run(_core.geary, ids, w, frozen(x), permutations, seed, alternative)
+
+
+def getis_ord(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternative: str, ids: pd.Index) -> Any:
+    """Global Getis-Ord G (a `_core.GlobalOut`; its normality moments are NaN)."""
+    return _run(_core.getis_ord, ids, w, frozen(x), permutations, seed, alternative)
+
+
+def join_counts(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternative: str, ids: pd.Index) -> Any:
+    """Join counts of 0 / 1 values: ((s0, s1, s2), units coded 1, [both 1, both 0, unlike])."""
+    return _run(_core.join_counts, ids, w, frozen(x), permutations, seed, alternative)
+
+
 def health(w: CoreMatrix, ids: pd.Index) -> Any:
     """The facts of an audit (a `_core.HealthOut`)."""
     return _run(_core.health, ids, w)

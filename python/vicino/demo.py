@@ -32,8 +32,8 @@ import pandas as pd
 import shapely
 
 from .audit import LEVELS
+from .autocorrelation import compare
 from .build import cliff_ord, contiguity, k_nearest, within_distance
-from .stats import moran
 
 _FIRST = [
     "Ost",
@@ -417,24 +417,6 @@ def _save_plots(out: Path, queen, repaired, shapes: pd.Series) -> list[str]:
     return list(drawn)
 
 
-def _moran_table(values: pd.Series, weights: dict, permutations: int, seed: int) -> pd.DataFrame:
-    """Moran's I under each candidate, with its inference spelled out in the column labels."""
-    rows = []
-    for name, w in weights.items():
-        r = moran(values, w, permutations=permutations, seed=seed)
-        rows.append(
-            {
-                "weights": name,
-                "I": r.statistic,
-                "E[I]": r.expected,
-                "z, randomization": r.randomization.z,
-                "p, randomization": r.randomization.p_value,
-                "p, permutation": r.permutation.p_value if r.permutation is not None else float("nan"),
-            }
-        )
-    return pd.DataFrame(rows).set_index("weights")
-
-
 def file_stem(name: str) -> str:
     """The file name of a candidate's weights: ``"queen, repaired"`` -> ``"queen_repaired"``."""
     return "_".join("".join(c if c.isalnum() else " " for c in name.lower()).split())
@@ -553,8 +535,10 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
     print(f"(first 8 settlements; all {len(standardized)} lags are in lags.csv)")
 
     print(_rule("6. Moran's I of the cistern share under each candidate"))
-    table = _moran_table(places["cistern_share"], standardized, permutations, seed)
-    print(table.drop(columns="E[I]").to_string(float_format=lambda v: f"{v:.4g}"))
+    # one row per candidate, every inference and the neighbour counts; a few columns are shown here
+    table = compare(places["cistern_share"], standardized, "moran", permutations=permutations, seed=seed)
+    shown = ["I", "z, randomization", "p, randomization", "p, permutation"]
+    print(table[shown].to_string(float_format=lambda v: f"{v:.4g}"))
     print()
     print(f"E[I] = -1/(n - 1) = {-1 / (len(places) - 1):.4g} under every candidate.")
     print(
@@ -562,7 +546,8 @@ def run(out_dir: str | os.PathLike | None = None, *, seed: int = 7, permutations
             "z, randomization: the z-score of I under random assignment of the observed values to the "
             "units; p, randomization: its two-sided normal p-value; p, permutation: the share of "
             f"{permutations}\xa0random permutations at least as extreme (the smallest possible is "
-            f"{1 / (permutations + 1):.4g})."
+            f"{1 / (permutations + 1):.4g}). moran.csv has every column of vicino.compare: the normality "
+            "inference and the neighbour counts of each candidate as well."
         )
     )
     print("queen, rook and Cliff-Ord: the districts, row-standardized, islands kept")

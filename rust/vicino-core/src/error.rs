@@ -248,6 +248,22 @@ pub enum Error {
         units.count
     )]
     SelfLinks { what: &'static str, units: Units },
+    #[error(
+        "{} unit(s) have negative values, {units}; {what} is defined for non-negative values \
+         (counts, amounts, rates): shift or transform the variable, or use Moran's I",
+        units.count
+    )]
+    NegativeValues { what: &'static str, units: Units },
+    #[error(
+        "{what} needs at least two units with positive values, got {count}: its denominator, the sum \
+         of x_i x_j over pairs of distinct units, is 0"
+    )]
+    TooFewPositive { what: &'static str, count: usize },
+    #[error(
+        "{} unit(s) have values other than 0 and 1, {units}; join counts take a binary variable coded 0 / 1",
+        units.count
+    )]
+    NotBinary { units: Units },
     #[error("the matrix is not a valid sparse matrix: {reason}")]
     InvalidMatrix { reason: String },
     #[error("the matrix must be square, got shape ({rows}, {cols})")]

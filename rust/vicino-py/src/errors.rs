@@ -96,7 +96,13 @@ fn class_name(e: &Error) -> &'static str {
         | EdgeOutOfRange { .. }
         | EdgeWeight { .. }
         | SelfLinks { .. } => "InvalidMatrixError",
-        LengthMismatch { .. } | NonFiniteValues { .. } | ConstantValues | Overflow { .. } => "InvalidValuesError",
+        LengthMismatch { .. }
+        | NonFiniteValues { .. }
+        | ConstantValues
+        | Overflow { .. }
+        | NegativeValues { .. }
+        | TooFewPositive { .. }
+        | NotBinary { .. } => "InvalidValuesError",
         NotConverged { .. } | EigenNotConverged { .. } | NoRealEigenvalue { .. } => "ConvergenceError",
         TooLarge { .. } => "TooLargeError",
         BadFile { .. } => "FileFormatError",

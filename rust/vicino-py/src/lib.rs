@@ -7,6 +7,7 @@ mod convert;
 mod distance_weights;
 mod edges;
 mod errors;
+mod global_stats;
 mod graph;
 mod io;
 mod local_stats;
@@ -40,6 +41,7 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add("EARTH_RADIUS_KM", vicino_core::neighbors::EARTH_RADIUS_KM)?;
     m.add_class::<stats::MoranOut>()?;
     m.add_class::<graph::HealthOut>()?;
+    global_stats::register(m)?;
     m.add_function(wrap_pyfunction!(neighbors::k_nearest, m)?)?;
     m.add_function(wrap_pyfunction!(neighbors::within_distance, m)?)?;
     m.add_function(wrap_pyfunction!(weights::validate, m)?)?;

@@ -6,8 +6,13 @@
 //!   per draw, so results never depend on the number of threads.
 //! * [`global`]: global Moran's I with inference under normality,
 //!   randomization and permutation.
+//! * [`geary`], [`getis`], [`joins`]: global Geary's C, Getis-Ord G and
+//!   join counts, with the same inference.
 
+pub mod geary;
+pub mod getis;
 pub mod global;
+pub mod joins;
 pub mod local;
 pub mod moments;
 pub mod permutation;

@@ -11,7 +11,17 @@
 //! onto b, for segments within 10 degrees of parallel, so that two units
 //! meeting at a corner do not gain a "shared stretch" of length about 2t
 //! from the edges around the corner.
+//!
+//! For units whose boundaries cross (their interiors overlap), [`Fill`] and
+//! [`inside_length`] measure the part of one boundary that lies within the
+//! other unit (holes filled): each segment is cut at its meetings with the
+//! other boundary, and each piece is classified by a crossing-number test
+//! (Shimrat 1962) of its midpoint, on an R-tree of the other's exterior
+//! segments, with the ray along the shorter side of its box. O(s log s)
+//! for s segments near the overlap, plus the segments each ray meets.
 
+use super::candidates::{meeting, overlap, tree_of, BoxTree};
+use super::geometry::{BBox, Polygons};
 use geo::kernels::{Kernel, Orientation, RobustKernel};
 use geo::Coord;
 
@@ -176,6 +186,151 @@ pub fn union_length(iv: &mut [(f64, f64)], scale: f64) -> f64 {
         total += ch - cl;
     }
     total * scale
+}
+
+/// A segment: its two ends.
+pub type Seg = (P, P);
+
+/// The box of a segment, widened by `t`.
+pub fn seg_box(a: P, b: P, t: f64) -> BBox {
+    [a[0].min(b[0]) - t, a[1].min(b[1]) - t, a[0].max(b[0]) + t, a[1].max(b[1]) + t]
+}
+
+/// Where the segments `to` meet a segment's box: an R-tree of their boxes
+/// when there are enough of them and of the segments that ask, else a scan.
+pub struct SegIndex(Option<BoxTree>);
+
+impl SegIndex {
+    /// Below this many segment pairs a scan is faster than building a tree.
+    const SCAN: usize = 1024;
+
+    pub fn new(to: &[Seg], asking: usize) -> Self {
+        let big = to.len() >= 16 && to.len().saturating_mul(asking) > Self::SCAN;
+        SegIndex(big.then(|| tree_of(to.iter().enumerate().map(|(k, &(a, b))| (k, seg_box(a, b, 0.0))))))
+    }
+
+    /// Call `f` with each segment of `to` whose box may meet `bx` (a
+    /// superset: callers test the boxes again). The order differs between
+    /// the two routes; callers only accumulate, so results do not.
+    pub fn each(&self, to: &[Seg], bx: &BBox, mut f: impl FnMut(P, P)) {
+        match &self.0 {
+            None => to.iter().for_each(|&(a, b)| f(a, b)),
+            Some(tree) => meeting(tree, bx).for_each(|k| f(to[k].0, to[k].1)),
+        }
+    }
+}
+
+/// The inside of one unit with its holes filled (the area within its
+/// exterior rings), for point-in-polygon tests.
+pub struct Fill {
+    segs: Vec<(P, P, usize)>,
+    tree: BoxTree,
+    bbox: BBox,
+    /// rays run along y (true) or x (false): along the shorter side of the box
+    vertical: bool,
+    odd: Vec<usize>,
+}
+
+impl Fill {
+    pub fn new(p: &Polygons<'_>, u: usize) -> Option<Self> {
+        let bbox = p.bbox(u)?;
+        let mut segs = Vec::new();
+        p.exterior_segments(u, &mut segs);
+        let tree = tree_of(segs.iter().enumerate().map(|(k, &(a, b, _))| (k, seg_box(a, b, 0.0))));
+        let vertical = bbox[3] - bbox[1] < bbox[2] - bbox[0];
+        Some(Fill { segs, tree, bbox, vertical, odd: Vec::new() })
+    }
+
+    /// Whether q lies inside an exterior ring (points on the boundary may
+    /// go either way: callers classify those separately).
+    pub fn contains(&mut self, q: P) -> bool {
+        let b = self.bbox;
+        if q[0] < b[0] || q[0] > b[2] || q[1] < b[1] || q[1] > b[3] {
+            return false;
+        }
+        // the ray from q towards the high side of the box, along one axis
+        let (ax, ray) = if self.vertical { (1, [q[0], q[1], q[0], b[3]]) } else { (0, [q[0], q[1], b[2], q[1]]) };
+        let other = 1 - ax;
+        self.odd.clear();
+        for k in meeting(&self.tree, &ray) {
+            let (s, e, ring) = self.segs[k];
+            if (s[other] > q[other]) != (e[other] > q[other]) {
+                let at = s[ax] + (q[other] - s[other]) / (e[other] - s[other]) * (e[ax] - s[ax]);
+                if q[ax] < at {
+                    self.odd.push(ring);
+                }
+            }
+        }
+        // inside any exterior ring: an odd number of crossings of that ring
+        self.odd.sort_unstable();
+        self.odd.chunk_by(|a, b| a == b).any(|run| run.len() % 2 == 1)
+    }
+}
+
+/// Parameter on a = (a0, a1) of the meeting point with b, for segments
+/// known to meet at a point (crossing, or touching at an end of one).
+fn meeting_params(a0: P, a1: P, b0: P, b1: P, out: &mut Vec<f64>) {
+    let (d, e) = (sub(a1, a0), sub(b1, b0));
+    let denom = d[0] * e[1] - d[1] * e[0];
+    if denom != 0.0 {
+        let f = sub(b0, a0);
+        out.push(((f[0] * e[1] - f[1] * e[0]) / denom).clamp(0.0, 1.0));
+    } else {
+        out.extend([param(a0, a1, b0).clamp(0.0, 1.0), param(a0, a1, b1).clamp(0.0, 1.0)]);
+    }
+}
+
+/// Lengths of the part of segments `from` inside `fill` (the other unit,
+/// holes filled) and of the part lying on the other's boundary `to`, each
+/// segment's length given by `len`. Pieces between meetings with `to` are
+/// classified by their midpoints; pieces on `to` count as inside.
+pub fn inside_length(
+    from: &[Seg],
+    to: &[Seg],
+    index: &SegIndex,
+    fill: &mut Fill,
+    len: impl Fn(P, P) -> f64,
+) -> (f64, f64) {
+    let (mut inside, mut on) = (0.0, 0.0);
+    let (mut cuts, mut iv) = (Vec::new(), Vec::new());
+    for &(a0, a1) in from {
+        cuts.clear();
+        iv.clear();
+        cuts.extend([0.0, 1.0]);
+        let ab = seg_box(a0, a1, 0.0);
+        index.each(to, &ab, |b0, b1| {
+            if !overlap(&seg_box(b0, b1, 0.0), &ab) {
+                return;
+            }
+            match meet_exact(a0, a1, b0, b1) {
+                Meet::Apart => {}
+                Meet::Point | Meet::Cross => meeting_params(a0, a1, b0, b1, &mut cuts),
+                Meet::Stretch(l, h) => {
+                    iv.push((l, h));
+                    cuts.extend([l, h]);
+                }
+            }
+        });
+        cuts.sort_unstable_by(f64::total_cmp);
+        cuts.dedup();
+        iv.sort_unstable_by(|a: &(f64, f64), b| a.0.total_cmp(&b.0));
+        let whole = len(a0, a1);
+        for w in cuts.windows(2) {
+            let (t0, t1) = (w[0], w[1]);
+            if !(t1 > t0) {
+                continue;
+            }
+            let mid = 0.5 * (t0 + t1);
+            let piece = (t1 - t0) * whole;
+            if iv.iter().any(|&(l, h)| l <= mid && mid <= h) {
+                on += piece;
+                inside += piece;
+            } else if fill.contains([a0[0] + mid * (a1[0] - a0[0]), a0[1] + mid * (a1[1] - a0[1])]) {
+                inside += piece;
+            }
+        }
+    }
+    (inside, on)
 }
 
 #[cfg(test)]

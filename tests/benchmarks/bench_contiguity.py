@@ -211,7 +211,7 @@ def row(label: str, n: int, tb, tv: float, mb, mv: dict) -> str:
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
+    ap.add_argument("--sizes", type=int, nargs="*", default=[10_000, 100_000, 1_000_000])
     ap.add_argument("--reps", type=int, default=3, help="runs per route (1 for n >= 10^6)")
     ap.add_argument(
         "--skip-rook-baseline-above",

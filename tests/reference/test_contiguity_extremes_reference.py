@@ -105,7 +105,7 @@ def long_border_pair(m: int, seed: int, midpoints: bool):
     return np.array([upper, lower, box(2, 2, 3, 3)], dtype=object)
 
 
-@pytest.mark.parametrize("m,midpoints", [(20_000, False), (20_000, True), (50_000, False)])
+@pytest.mark.parametrize("m,midpoints", [(20_000, False), (20_000, True), (30_000, False)])
 def test_long_shared_border(m, midpoints):
     geoms = long_border_pair(m, m, midpoints)
     w = vicino.contiguity(geoms, "rook", weight="border_length")

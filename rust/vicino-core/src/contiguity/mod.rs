@@ -11,7 +11,7 @@
 //! would be poor; in parallel with `rayon`). For each candidate pair every
 //! boundary segment of one unit that reaches the other's box is tested
 //! against those of the other that reach its box ([`contact`], through a
-//! per-pair R-tree of the segments when there are many, so a long shared
+//! per-pair sweep of the segments when there are many, so a long shared
 //! border costs about O(s log s), not O(s^2)): exactly, with robust
 //! orientation predicates, when the tolerance is 0, so shared borders need
 //! not have matching vertices (a vertex in the middle of the other unit's

@@ -562,7 +562,7 @@ def contiguity(
         absorbs the gaps and slivers of digitized borders.
     weight : {"binary", "border_length"}
         ``border_length`` (rook only) weighs each link by the length of the
-        shared border, in coordinate units.
+        shared border, in coordinate units (always positive, see Notes).
     ids : sequence, optional
         Unit ids.
 
@@ -571,7 +571,24 @@ def contiguity(
     A unit lying inside another's exterior ring (an enclave in a hole, or
     overlapping it) is its neighbour under both rules, and so are units
     whose boundaries cross. Units with empty geometry become islands, with
-    a warning naming them. Contiguity is topological: longitude/latitude
+    a warning naming them.
+
+    The shared border length has one definition, so that every rook link
+    has a positive length: the length of each unit's boundary lying within
+    the other unit (holes filled), counting their common boundary once,
+    ``|bd A & B| + |bd B & A| - |bd A & bd B|``. For units that only touch,
+    it is their common border (shapely's
+    ``intersection(a.boundary, b.boundary).length``); for units whose
+    boundaries cross, the perimeter of their overlap plus any common border
+    outside it; for an enclave, its perimeter. (Units whose interiors
+    overlap although their boundaries only touch, without crossing, keep
+    their common border.)
+
+    Coordinates of any finite size up to 1e150 give the same links, and
+    lengths scaled exactly, as the same polygons near unit scale (they are
+    rescaled by a power of two, exactly, and the tolerance with them); a
+    non-zero coordinate more than 10^138 times smaller than the largest is
+    refused with :class:`~vicino.InvalidInputError`. Contiguity is topological: longitude/latitude
     input works unchanged (lengths are then in degrees; use
     :func:`cliff_ord` with ``metric="great_circle"`` for kilometres).
     The result is symmetric; ``to_edges()`` lists each link's
@@ -622,7 +639,34 @@ def cliff_ord(
     border lengths and perimeters are measured along great circles and d_ij
     is the great-circle distance in km between centroids computed in the
     longitude/latitude plane (adequate for units much smaller than a
-    hemisphere). ``tolerance`` is as in :func:`contiguity`.
+    hemisphere); longitudes must lie in [-180, 360] and latitudes in
+    [-90, 90]. ``tolerance`` and the border lengths are as in
+    :func:`contiguity`.
+
+    Parameters
+    ----------
+    polygons : GeoDataFrame, GeoSeries, shapely array or list of Polygon / MultiPolygon
+        One (multi)polygon per unit.
+    border_power, distance_power : float
+        The powers a and b: finite and >= 0, else
+        :class:`~vicino.InvalidParameterError` naming the parameter.
+    metric : {"euclidean", "great_circle"}
+        How lengths and distances are measured.
+    tolerance : float
+        As in :func:`contiguity`.
+    ids : sequence, optional
+        Unit ids.
+
+    Returns
+    -------
+    Weights
+        The weights, with ``perimeter`` per unit. Weights are computed so
+        that large powers neither overflow nor underflow on the way (in log
+        space when needed); a weight beyond the range of floating point
+        (about 1e-308 to 1e308) is refused with
+        :class:`~vicino.InvalidMatrixError` rather than stored as 0 or
+        infinity. Two neighbours whose centroids coincide are refused
+        unless ``distance_power=0``.
     """
     a = real_number(border_power, "border_power")
     b = real_number(distance_power, "distance_power")

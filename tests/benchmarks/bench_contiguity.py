@@ -1,7 +1,7 @@
 """Benchmarks of polygon contiguity against the general-purpose route.
 
 Run: python tests/benchmarks/bench_contiguity.py [--sizes 10000 100000 1000000]
-     [--reps 3] [--skip-rook-baseline-above 200000]
+     [--reps 3] [--skip-rook-baseline-above 200000] [--border-sizes 10000 100000 1000000]
 
 Prints a table of wall times, ratios (general-purpose route / vicino) and
 peak memory. It never fails: it measures, it does not judge.
@@ -33,6 +33,13 @@ Steps, each on the same tessellation for both routes:
 * conversion: vicino.geometry.as_polygons(gs) on its own (GeoSeries to
   the flat buffers the core reads), the part of the end-to-end route that
   the core-only rows leave out; it has no baseline.
+* long border: two units sharing one wiggly border of m vertices (the
+  lower unit with an extra vertex inside every edge of it, so the borders
+  meet at T-junctions), beside a third unit apart; shapely.STRtree query
+  with "intersects", relate_pattern "****1****" and
+  length(intersection(a.boundary, b.boundary)) on the pairs, vs
+  vicino.contiguity(units, "rook", weight="border_length"). The pair test
+  is about linear in m (it was quadratic: 12 s at m = 10^5).
 Times: all routes of a rule run alternately in one process, best of
 several runs (one run for n >= 10^6), so they see the same machine. Peak
 memory: the peak resident set of a fresh process that loads the
@@ -134,6 +141,55 @@ CHILD = textwrap.dedent(
 )
 
 
+BORDER = textwrap.dedent(
+    r"""
+    import json, resource, sys, time
+    import numpy as np, shapely
+    import vicino
+
+    mode, m, reps = sys.argv[1], int(sys.argv[2]), int(sys.argv[3])
+    rng = np.random.default_rng(m)
+    x = np.arange(m) / 2.0**20  # dyadic: the midpoints lie exactly on the border
+    y = np.round(rng.uniform(-0.25, 0.25, m) * 2**10) / 2**10
+    border = np.column_stack([x, y])
+    low = np.empty((2 * m - 1, 2))
+    low[0::2], low[1::2] = border, 0.5 * (border[:-1] + border[1:])
+    geoms = np.array([
+        shapely.Polygon(np.vstack([border, [[x[-1], 1.0], [0.0, 1.0]]])),
+        shapely.Polygon(np.vstack([low[::-1], [[0.0, -1.0], [x[-1], -1.0]]])),
+        shapely.box(2, 2, 3, 3),
+    ], dtype=object)
+
+    def baseline():
+        i, j = shapely.STRtree(geoms).query(geoms, predicate="intersects")
+        keep = i < j
+        i, j = i[keep], j[keep]
+        hit = shapely.relate_pattern(geoms[i], geoms[j], "****1****")
+        return shapely.length(shapely.intersection(shapely.boundary(geoms[i[hit]]), shapely.boundary(geoms[j[hit]])))
+
+    routes = [baseline, lambda: vicino.contiguity(geoms, "rook", weight="border_length")]
+    if mode == "time":
+        best = [float("inf")] * 2
+        for _ in range(reps):
+            for k, f in enumerate(routes):
+                t = time.perf_counter(); f(); best[k] = min(best[k], time.perf_counter() - t)
+        print(json.dumps(best))
+    else:
+        base = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        routes[int(mode[-1])]()
+        peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+        print(json.dumps({"peak_mb": peak / 1024, "extra_mb": max(peak - base, 0) / 1024}))
+    """
+)
+
+
+def border_child(mode: str, m: int, reps: int):
+    out = subprocess.run(
+        [sys.executable, "-c", BORDER, mode, str(m), str(reps)], capture_output=True, text=True, check=True
+    )
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
 def child(mode: str, rule: str, n: int, reps: int, skip: bool):
     out = subprocess.run(
         [sys.executable, "-c", CHILD, mode, rule, str(n), str(reps), "1" if skip else "0"],
@@ -155,7 +211,7 @@ def row(label: str, n: int, tb, tv: float, mb, mv: dict) -> str:
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
+    ap.add_argument("--sizes", type=int, nargs="*", default=[10_000, 100_000, 1_000_000])
     ap.add_argument("--reps", type=int, default=3, help="runs per route (1 for n >= 10^6)")
     ap.add_argument(
         "--skip-rook-baseline-above",
@@ -163,6 +219,14 @@ def main() -> None:
         default=200_000,
         metavar="N",
         help="do not run the relate_pattern rook baseline above N units (it takes minutes at 10^6)",
+    )
+    ap.add_argument(
+        "--border-sizes",
+        type=int,
+        nargs="*",
+        default=[10_000, 100_000, 1_000_000],
+        metavar="M",
+        help="vertices of the shared border of the long-border rows (none to skip them)",
     )
     args = ap.parse_args()
     print(
@@ -180,6 +244,10 @@ def main() -> None:
             print(row(f"{rule} core", n, tb, tc, mb, mc), flush=True)
             if rule == "queen":
                 print(row("conversion", n, None, tconv, None, child("mem3", rule, n, 1, skip)), flush=True)
+    for m in args.border_sizes:
+        reps = 1 if m >= 1_000_000 else args.reps
+        tb, tv = border_child("time", m, reps)
+        print(row("long border", m, tb, tv, border_child("mem0", m, 1), border_child("mem1", m, 1)), flush=True)
     print(
         "ratio = baseline time / vicino time (higher is better); MB = peak resident memory of a process "
         "that loads the inputs and runs that route once; core rows exclude the conversion (as_polygons): "

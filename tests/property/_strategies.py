@@ -102,14 +102,7 @@ def open_bug(name: str) -> bool:
     return name in OPEN_BUGS and os.environ.get("VICINO_PROPERTY_STRICT") != "1"
 
 
-OPEN_BUGS = {
-    "rook-tiny-coordinates",  # rook links, border lengths and perimeters are lost below ~1e-162
-    "rook-tolerance-tiny-corners",  # rook with a tolerance links corner contacts below ~1e-84
-    "rook-tolerance-large-coordinates",  # rook with a tolerance loses partial shared edges above ~1e84
-    "cliff-ord-tiny-coordinates",  # Cliff-Ord refuses (coincident centroids) below ~1e-108
-    "cliff-ord-large-coordinates",  # Cliff-Ord loses every link above ~1e102 (centroids overflow)
-    "cliff-ord-powers-unchecked",  # NaN / negative / infinite powers accepted, links silently dropped
-}
+OPEN_BUGS: set[str] = set()  # every polygon bug listed here has been fixed
 
 
 # ---------------------------------------------------------------------------

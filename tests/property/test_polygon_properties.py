@@ -17,17 +17,15 @@ import pytest
 import shapely
 from _oracles import csr_of, link_set
 from _strategies import (
-    Tiling,
     attempt,
     bad_floats,
     not_numbers,
-    open_bug,
     refused,
     succeeded,
     tilings,
     unknown_options,
 )
-from hypothesis import assume, given
+from hypothesis import given
 from hypothesis import strategies as st
 
 import vicino
@@ -80,11 +78,6 @@ def weights_by_pair(w: vicino.Weights) -> dict[tuple[int, int], float]:
     }
 
 
-def largest_coordinate(t: Tiling) -> float:
-    top = max((max(abs(c) for r in parts for c in r) for parts in t.rects), default=0)
-    return float(np.ldexp(top + abs(t.offset), t.exp))
-
-
 # ---------------------------------------------------------------------------
 # contiguity
 # ---------------------------------------------------------------------------
@@ -98,8 +91,6 @@ def test_contiguity_matches_shapely(t, form, named):
     assert q.ids.equals(index)
     assert link_set(q.to_dense()) == queen
     assert set(np.flatnonzero(q.counts.to_numpy() == 0)) >= set(t.empty)  # empty units are islands
-    if t.exp < -500 and open_bug("rook-tiny-coordinates"):
-        return  # held back: see test_bug_rook_loses_links_of_tiny_polygons
     r = succeeded(attempt(vicino.contiguity, obj, "rook", **kw), form)
     assert link_set(r.to_dense()) == rook
     assert rook <= queen
@@ -117,9 +108,6 @@ def test_contiguity_matches_shapely(t, form, named):
 
 @given(t=tilings(scales=SCALES), rule=st.sampled_from(["queen", "rook"]), fraction=st.sampled_from([1e-9, 1e-3, 0.2]))
 def test_small_tolerance_changes_no_link_of_exact_borders(t, rule, fraction):
-    assume(not (rule == "rook" and t.exp < -500 and open_bug("rook-tiny-coordinates")))
-    assume(not (rule == "rook" and t.exp < -250 and open_bug("rook-tolerance-tiny-corners")))
-    assume(not (rule == "rook" and largest_coordinate(t) > 1e80 and open_bug("rook-tolerance-large-coordinates")))
     geoms = t.shapes()
     # the grid spacing is 2^exp (1/2 with extra midpoint vertices): gaps are wider than the tolerance
     tolerance = float(np.ldexp(fraction, t.exp))
@@ -138,8 +126,6 @@ def test_small_tolerance_changes_no_link_of_exact_borders(t, rule, fraction):
     distance_power=st.sampled_from([0.0, 1.0, 2.0, 3.0]),
 )
 def test_cliff_ord_matches_shapely(t, border_power, distance_power):
-    assume(not (t.exp < -330 and open_bug("cliff-ord-tiny-coordinates")))
-    assume(not (largest_coordinate(t) > 1e100 and open_bug("cliff-ord-large-coordinates")))
     plain = t.shapes(scaled=False)
     _, rook, border = shapely_contacts(plain)  # reference: shapely (GEOS) on the unscaled units
     perimeter = shapely.length(plain)
@@ -151,13 +137,18 @@ def test_cliff_ord_matches_shapely(t, border_power, distance_power):
     if distance_power != 0 and any(d == 0 for d in dist.values()):
         refused(out, vicino.InvalidParameterError)  # neighbours with one centroid: infinite weight
         return
+    # reference: Cliff and Ord (1981) w_ij = (b_ij / p_i)^a / d_ij^b, with shapely lengths and centroids
+    ref = {(i, j): (border[(i, j)] / perimeter[i]) ** border_power / dist[(i, j)] ** distance_power for i, j in rook}
+    # the weights of the scaled units are 2^(-exp b) times these: beyond the normal floats, a refusal
+    log2 = [np.log2(v) - t.exp * distance_power for v in ref.values()]
+    if log2 and (max(log2) >= 1024 or min(log2) < -1022):
+        refused(out, vicino.InvalidMatrixError)
+        return
     w = succeeded(out)
     got = weights_by_pair(w)
     assert set(got) == rook
-    for (i, j), value in got.items():
-        # reference: Cliff and Ord (1981) w_ij = (b_ij / p_i)^a / d_ij^b, with shapely lengths and centroids
-        ref = (border[(i, j)] / perimeter[i]) ** border_power / dist[(i, j)] ** distance_power
-        assert value == pytest.approx(ref * 2.0 ** (-t.exp * distance_power), rel=1e-9, abs=0)
+    for pair, value in got.items():
+        assert value == pytest.approx(ref[pair] * 2.0 ** (-t.exp * distance_power), rel=1e-9, abs=0)
 
 
 def haversine_pairs(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -357,9 +348,6 @@ def test_polygon_builders_refuse_bad_parameters(t, data):
     refused(out, vicino.InvalidParameterError, vicino.IdError)
 
 
-@pytest.mark.skipif(
-    open_bug("cliff-ord-powers-unchecked"), reason="open bug: see test_bug_cliff_ord_accepts_a_nan_power"
-)
 @given(t=tilings(max_units=8), data=st.data())
 def test_cliff_ord_refuses_unusable_powers(t, data):
     name = data.draw(st.sampled_from(["border_power", "distance_power"]))
@@ -368,7 +356,7 @@ def test_cliff_ord_refuses_unusable_powers(t, data):
 
 
 # ---------------------------------------------------------------------------
-# regressions: minimal cases of open bugs
+# regressions: minimal cases of bugs fixed (each once a strict xfail)
 # ---------------------------------------------------------------------------
 def _squares(scale: float) -> list:
     # two unit squares sharing an edge, and a third meeting the second at a corner only
@@ -379,7 +367,6 @@ def _squares(scale: float) -> list:
     ]
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: rook finds no link between tiny squares")
 def test_bug_rook_loses_links_of_tiny_polygons():
     w = vicino.contiguity(_squares(2.0**-560), "rook")  # about 2.6e-169: queen finds the links
     _, rook, _ = shapely_contacts(np.array(_squares(1.0), dtype=object))  # reference: shapely (GEOS)
@@ -387,7 +374,6 @@ def test_bug_rook_loses_links_of_tiny_polygons():
     assert (w.perimeter > 0).all()
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: tiny corner contacts become rook links")
 def test_bug_rook_with_tolerance_links_tiny_corners():
     s = 2.0**-300  # about 4.9e-91
     w = vicino.contiguity(_squares(s), "rook", tolerance=0.1 * s)
@@ -395,7 +381,6 @@ def test_bug_rook_with_tolerance_links_tiny_corners():
     assert link_set(w.to_dense()) == rook  # units 1 and 2 meet at a corner only
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: Cliff-Ord refuses tiny polygons")
 def test_bug_cliff_ord_of_tiny_polygons():
     out = attempt(vicino.cliff_ord, _squares(2.0**-400))  # about 3.9e-121
     assert out.ok, out.error  # "centroids coincide", yet they are one square apart
@@ -403,14 +388,12 @@ def test_bug_cliff_ord_of_tiny_polygons():
     assert link_set(out.value.to_dense()) == rook
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: Cliff-Ord loses every link above ~1e102")
 def test_bug_cliff_ord_of_large_polygons():
     w = vicino.cliff_ord(_squares(2.0**400))  # about 2.6e120, well below the 1e150 limit of coordinates
     _, rook, _ = shapely_contacts(np.array(_squares(1.0), dtype=object))  # reference: shapely (GEOS)
     assert link_set(w.to_dense()) == rook
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: rook with tolerance, large coordinates")
 def test_bug_rook_with_tolerance_loses_partial_edges_of_large_polygons():
     s = 2.0**300  # about 2e90
     units = [shapely.box(0, s, s, 2 * s), shapely.box(0, 0, 2 * s, s)]
@@ -420,7 +403,6 @@ def test_bug_rook_with_tolerance_loses_partial_edges_of_large_polygons():
     assert link_set(w.to_dense()) == rook
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="vicino bug: NaN power accepted, links dropped")
 def test_bug_cliff_ord_accepts_a_nan_power():
     out = attempt(vicino.cliff_ord, _squares(1.0), border_power=float("nan"))
     refused(out, vicino.InvalidParameterError)

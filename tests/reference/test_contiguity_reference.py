@@ -416,7 +416,9 @@ def test_holes_enclaves_and_multipolygons():
     )  # reference: shapely boundary intersection
     assert lengths[("outer", "multi")] == 1.0  # reference: shapely length of intersection of boundaries
     assert lengths[("multi", "east")] == 1.0  # reference: shapely length of intersection of boundaries
-    assert lengths[("outer", "floating")] == 0.0  # reference: shapely, the boundaries do not meet (length 0)
+    # documented rule: an enclave shares its whole boundary (a rook link has a positive length)
+    assert shapely.intersection(geoms[0].boundary, geoms[2].boundary).length == 0.0  # reference: shapely
+    assert lengths[("outer", "floating")] == shapely.length(geoms[2])  # reference: shapely length of the enclave, 4
     # perimeters include holes and every part
     np.testing.assert_array_equal(rook.perimeter.to_numpy(), shapely.length(geoms))  # reference: shapely.length
 

@@ -52,6 +52,20 @@ pub fn pow2_exponent(m: f64) -> i32 {
 /// least this large are at least 2^-511, whose squares stay normal floats.
 pub const SMALLEST: f64 = f64::from_bits(((1023 - 459) as u64) << 52); // 2^-459, about 6.7e-139
 
+/// The largest magnitude and the smallest non-zero magnitude of `xy`.
+fn extremes(xy: &[f64]) -> (f64, f64) {
+    xy.par_iter()
+        .with_min_len(1 << 14)
+        .fold(
+            || (0.0f64, f64::INFINITY),
+            |(hi, lo), &v| {
+                let a = v.abs();
+                (hi.max(a), if a > 0.0 { lo.min(a) } else { lo })
+            },
+        )
+        .reduce(|| (0.0, f64::INFINITY), |a, b| (a.0.max(b.0), a.1.min(b.1)))
+}
+
 /// How coordinates are scaled for computing: local = world * 2^exp.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Frame {
@@ -69,17 +83,7 @@ impl Frame {
     /// themselves). A non-zero coordinate too small to tell apart from 0
     /// beside the largest is refused.
     pub fn fit(xy: &[f64], may_scale: bool) -> Result<Frame> {
-        let (largest, smallest) = xy
-            .par_iter()
-            .with_min_len(1 << 14)
-            .fold(
-                || (0.0f64, f64::INFINITY),
-                |(hi, lo), &v| {
-                    let a = v.abs();
-                    (hi.max(a), if a > 0.0 { lo.min(a) } else { lo })
-                },
-            )
-            .reduce(|| (0.0, f64::INFINITY), |a, b| (a.0.max(b.0), a.1.min(b.1)));
+        let (largest, smallest) = extremes(xy);
         if largest == 0.0 || (smallest >= SMALLEST && largest >= 1.0 / (1u64 << 63) as f64) {
             return Ok(Frame::IDENTITY);
         }
@@ -91,9 +95,37 @@ impl Frame {
         Ok(Frame { exp })
     }
 
+    /// Choose the frame that brings the largest coordinate of `xy` near 1
+    /// whenever it lies outside [2^-32, 2^33) and `may_scale` allows it
+    /// (polygon computations: their tolerance tests multiply four
+    /// coordinate differences, so both tiny and large magnitudes need it).
+    /// Coordinates of moderate size keep the identity frame (bit for bit
+    /// the same results). A non-zero coordinate too small to tell apart
+    /// from 0 beside the largest is refused ([`Error::CoordinateSpan`]).
+    pub fn near_one(xy: &[f64], may_scale: bool) -> Result<Frame> {
+        let (largest, smallest) = extremes(xy);
+        if largest == 0.0 {
+            return Ok(Frame::IDENTITY);
+        }
+        let top = pow2_exponent(largest);
+        let exp = if may_scale && !(-32..=32).contains(&top) { -top } else { 0 };
+        // the span is what matters: measured against the largest, in any frame
+        // (degrees are absolute: without rescaling a tiny one is refused as it is)
+        if times_pow2(smallest, if may_scale { -top } else { 0 }) < SMALLEST {
+            let at = xy.iter().position(|&v| v.abs() == smallest).expect("the smallest is one of them");
+            return Err(Error::CoordinateSpan { unit: Unit(at / 2), axis: at % 2, value: xy[at], largest });
+        }
+        Ok(Frame { exp })
+    }
+
     /// Whether this frame changes anything.
     pub fn is_identity(&self) -> bool {
         self.exp == 0
+    }
+
+    /// The power of two: local = world * 2^exponent.
+    pub fn exponent(&self) -> i32 {
+        self.exp
     }
 
     /// The coordinates in this frame (borrowed when unchanged).
@@ -169,5 +201,17 @@ mod tests {
         assert!(matches!(Frame::fit(&[1e-170, 0.0, 1.0, 2.0], true), Err(Error::CoordinateSpan { .. })));
         // longitude / latitude are never rescaled
         assert!(Frame::fit(&[1e-170, 0.0, 2e-170, 0.0], false).is_err());
+        // polygon frames: moderate data untouched, tiny and large brought near 1
+        assert!(Frame::near_one(&[0.0, 1.0, 5e5, -3.0], true).unwrap().is_identity());
+        for top in [3e-170, 3e140] {
+            let f = Frame::near_one(&[top / 3.0, 0.0, top, top / 2.0], true).unwrap();
+            let world = [top];
+            let local = f.local(&world);
+            assert!(local[0] >= 1.0 && local[0] < 2.0);
+            assert_eq!(f.to_world(local[0]), top);
+        }
+        assert!(matches!(Frame::near_one(&[1e-170, 1e10], true), Err(Error::CoordinateSpan { .. })));
+        assert!(Frame::near_one(&[1e-170, 2e-170], false).is_err());
+        assert!(Frame::near_one(&[1e-10, 2e100], false).unwrap().is_identity());
     }
 }

@@ -94,6 +94,6 @@ pub fn cliff_ord<'py>(
 /// Centroids of polygons as interleaved x, y (NaN for empty units).
 #[pyfunction]
 pub fn centroids<'py>(py: Python<'py>, polygons: PolygonInput<'py>) -> PyResult<Bound<'py, PyArray1<f64>>> {
-    let out = with_polygon_input(py, polygons, |p, _| Ok(core::centroids(p)))?;
+    let out = with_polygon_input(py, polygons, |p, _| core::centroids(p))?;
     Ok(out.into_pyarray(py))
 }

@@ -11,7 +11,17 @@
 //! onto b, for segments within 10 degrees of parallel, so that two units
 //! meeting at a corner do not gain a "shared stretch" of length about 2t
 //! from the edges around the corner.
+//!
+//! For units whose boundaries cross (their interiors overlap), [`Fill`] and
+//! [`inside_length`] measure the part of one boundary that lies within the
+//! other unit (holes filled): each segment is cut at its meetings with the
+//! other boundary, and each piece is classified by a crossing-number test
+//! (Shimrat 1962) of its midpoint against the other's exterior segments,
+//! found through the same sweep structure ([`SegIndex`]). O(s log s) for s
+//! segments near the overlap, plus the segments each ray meets.
 
+use super::candidates::overlap;
+use super::geometry::{BBox, Polygons};
 use geo::kernels::{Kernel, Orientation, RobustKernel};
 use geo::Coord;
 
@@ -178,6 +188,221 @@ pub fn union_length(iv: &mut [(f64, f64)], scale: f64) -> f64 {
     total * scale
 }
 
+/// A segment: its two ends.
+pub type Seg = (P, P);
+
+/// The box of a segment, widened by `t`.
+pub fn seg_box(a: P, b: P, t: f64) -> BBox {
+    [a[0].min(b[0]) - t, a[1].min(b[1]) - t, a[0].max(b[0]) + t, a[1].max(b[1]) + t]
+}
+
+/// Where the segments `to` meet a segment's box: a sweep structure when
+/// there are enough of them and of the segments that ask, else a scan.
+///
+/// The sweep sorts the segments by their low end along one axis (the one
+/// along which their extents overlap least: x for a border running east
+/// and west, however much it wiggles) and keeps a max-tree of their high
+/// ends in that order, so a query lists the k segments whose extents meet
+/// its own along that axis in O((k + 1) log s). (An R-tree of the boxes
+/// degrades here: the boxes of a wiggling border are tall and thin, its
+/// nodes slabs that every query crosses, about O(s^0.5) per query.)
+pub struct SegIndex(Option<Sweep>);
+
+struct Sweep {
+    axis: usize,
+    /// segments by their low end along `axis`, and those low ends
+    order: Vec<usize>,
+    lo: Vec<f64>,
+    /// max-tree of the high ends in that order: leaves at `size + k`
+    hi: Vec<f64>,
+    size: usize,
+}
+
+impl Sweep {
+    fn new(to: &[Seg]) -> Self {
+        let extent = |axis: usize| {
+            let (mut lo, mut hi, mut sum) = (f64::INFINITY, f64::NEG_INFINITY, 0.0);
+            for &(a, b) in to {
+                lo = lo.min(a[axis].min(b[axis]));
+                hi = hi.max(a[axis].max(b[axis]));
+                sum += (a[axis] - b[axis]).abs();
+            }
+            // how many segments overlap a point on average along the axis
+            sum / (hi - lo).max(f64::MIN_POSITIVE)
+        };
+        let axis = if extent(0) <= extent(1) { 0 } else { 1 };
+        let low = |k: usize| to[k].0[axis].min(to[k].1[axis]);
+        let mut order: Vec<usize> = (0..to.len()).collect();
+        order.sort_unstable_by(|&a, &b| low(a).total_cmp(&low(b)));
+        let lo = order.iter().map(|&k| low(k)).collect();
+        let size = to.len().next_power_of_two();
+        let mut hi = vec![f64::NEG_INFINITY; 2 * size];
+        for (slot, &k) in order.iter().enumerate() {
+            hi[size + slot] = to[k].0[axis].max(to[k].1[axis]);
+        }
+        for node in (1..size).rev() {
+            hi[node] = hi[2 * node].max(hi[2 * node + 1]);
+        }
+        Sweep { axis, order, lo, hi, size }
+    }
+
+    /// Call `f` with each segment whose extent along the axis meets [q0, q1].
+    fn each(&self, q0: f64, q1: f64, mut f: impl FnMut(usize)) {
+        // only segments starting at or before q1, and of those the ones ending at or after q0
+        let end = self.lo.partition_point(|&v| v <= q1);
+        let mut stack = vec![(1usize, 0usize, self.size)];
+        while let Some((node, from, to)) = stack.pop() {
+            if from >= end || self.hi[node] < q0 {
+                continue;
+            }
+            if to - from == 1 {
+                f(self.order[from]);
+                continue;
+            }
+            let mid = (from + to) / 2;
+            stack.push((2 * node + 1, mid, to));
+            stack.push((2 * node, from, mid));
+        }
+    }
+}
+
+impl SegIndex {
+    /// Below this many segment pairs a scan is faster than building the sweep.
+    const SCAN: usize = 1024;
+
+    pub fn new(to: &[Seg], asking: usize) -> Self {
+        let big = to.len() >= 16 && to.len().saturating_mul(asking) > Self::SCAN;
+        SegIndex(big.then(|| Sweep::new(to)))
+    }
+
+    /// Call `f` with each segment of `to` whose box may meet `bx` (a
+    /// superset: callers test the boxes again). The order differs between
+    /// the two routes; callers only accumulate, so results do not.
+    pub fn each(&self, to: &[Seg], bx: &BBox, mut f: impl FnMut(P, P)) {
+        match &self.0 {
+            None => to.iter().for_each(|&(a, b)| f(a, b)),
+            Some(sweep) => sweep.each(bx[sweep.axis], bx[sweep.axis + 2], |k| f(to[k].0, to[k].1)),
+        }
+    }
+}
+
+/// The inside of one unit with its holes filled (the area within its
+/// exterior rings), for point-in-polygon tests.
+pub struct Fill {
+    segs: Vec<Seg>,
+    rings: Vec<usize>,
+    /// the segments swept along the axis where they overlap least; rays run
+    /// along the other axis, so each meets few segments
+    sweep: Sweep,
+    bbox: BBox,
+    odd: Vec<usize>,
+}
+
+impl Fill {
+    pub fn new(p: &Polygons<'_>, u: usize) -> Option<Self> {
+        let bbox = p.bbox(u)?;
+        let mut all = Vec::new();
+        p.exterior_segments(u, &mut all);
+        let segs: Vec<Seg> = all.iter().map(|&(a, b, _)| (a, b)).collect();
+        let rings = all.iter().map(|&(_, _, r)| r).collect();
+        let sweep = Sweep::new(&segs);
+        Some(Fill { segs, rings, sweep, bbox, odd: Vec::new() })
+    }
+
+    /// Whether q lies inside an exterior ring (points on the boundary may
+    /// go either way: callers classify those separately).
+    pub fn contains(&mut self, q: P) -> bool {
+        let b = self.bbox;
+        if q[0] < b[0] || q[0] > b[2] || q[1] < b[1] || q[1] > b[3] {
+            return false;
+        }
+        // the ray from q towards +infinity along `ax`, through the segments
+        // whose extent along the other axis holds q
+        let other = self.sweep.axis;
+        let ax = 1 - other;
+        self.odd.clear();
+        let (segs, rings, odd) = (&self.segs, &self.rings, &mut self.odd);
+        self.sweep.each(q[other], q[other], |k| {
+            let (s, e) = segs[k];
+            if (s[other] > q[other]) != (e[other] > q[other]) {
+                let at = s[ax] + (q[other] - s[other]) / (e[other] - s[other]) * (e[ax] - s[ax]);
+                if q[ax] < at {
+                    odd.push(rings[k]);
+                }
+            }
+        });
+        // inside any exterior ring: an odd number of crossings of that ring
+        self.odd.sort_unstable();
+        self.odd.chunk_by(|a, b| a == b).any(|run| run.len() % 2 == 1)
+    }
+}
+
+/// Parameter on a = (a0, a1) of the meeting point with b, for segments
+/// known to meet at a point (crossing, or touching at an end of one).
+fn meeting_params(a0: P, a1: P, b0: P, b1: P, out: &mut Vec<f64>) {
+    let (d, e) = (sub(a1, a0), sub(b1, b0));
+    let denom = d[0] * e[1] - d[1] * e[0];
+    if denom != 0.0 {
+        let f = sub(b0, a0);
+        out.push(((f[0] * e[1] - f[1] * e[0]) / denom).clamp(0.0, 1.0));
+    } else {
+        out.extend([param(a0, a1, b0).clamp(0.0, 1.0), param(a0, a1, b1).clamp(0.0, 1.0)]);
+    }
+}
+
+/// Lengths of the part of segments `from` inside `fill` (the other unit,
+/// holes filled) and of the part lying on the other's boundary `to`, each
+/// segment's length given by `len`. Pieces between meetings with `to` are
+/// classified by their midpoints; pieces on `to` count as inside.
+pub fn inside_length(
+    from: &[Seg],
+    to: &[Seg],
+    index: &SegIndex,
+    fill: &mut Fill,
+    len: impl Fn(P, P) -> f64,
+) -> (f64, f64) {
+    let (mut inside, mut on) = (0.0, 0.0);
+    let (mut cuts, mut iv) = (Vec::new(), Vec::new());
+    for &(a0, a1) in from {
+        cuts.clear();
+        iv.clear();
+        cuts.extend([0.0, 1.0]);
+        let ab = seg_box(a0, a1, 0.0);
+        index.each(to, &ab, |b0, b1| {
+            if !overlap(&seg_box(b0, b1, 0.0), &ab) {
+                return;
+            }
+            match meet_exact(a0, a1, b0, b1) {
+                Meet::Apart => {}
+                Meet::Point | Meet::Cross => meeting_params(a0, a1, b0, b1, &mut cuts),
+                Meet::Stretch(l, h) => {
+                    iv.push((l, h));
+                    cuts.extend([l, h]);
+                }
+            }
+        });
+        cuts.sort_unstable_by(f64::total_cmp);
+        cuts.dedup();
+        iv.sort_unstable_by(|a: &(f64, f64), b| a.0.total_cmp(&b.0));
+        let whole = len(a0, a1);
+        for w in cuts.windows(2) {
+            let (t0, t1) = (w[0], w[1]);
+            if !(t1 > t0) {
+                continue;
+            }
+            let mid = 0.5 * (t0 + t1);
+            let piece = (t1 - t0) * whole;
+            if iv.iter().any(|&(l, h)| l <= mid && mid <= h) {
+                on += piece;
+                inside += piece;
+            } else if fill.contains([a0[0] + mid * (a1[0] - a0[0]), a0[1] + mid * (a1[1] - a0[1])]) {
+                inside += piece;
+            }
+        }
+    }
+    (inside, on)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -191,6 +416,34 @@ mod tests {
         assert_eq!(meet_exact([0., 0.], [2., 0.], [2., 0.], [3., 0.]), Meet::Point);
         assert_eq!(meet_exact([0., 0.], [2., 0.], [2.5, 0.], [3., 0.]), Meet::Apart);
         assert_eq!(meet_exact([0., 0.], [2., 0.], [0., 1.], [2., 1.]), Meet::Apart);
+    }
+
+    #[test]
+    fn sweep_finds_what_a_scan_finds() {
+        // a wiggling border and a few long segments; brute force is the oracle (common practice)
+        let mut to: Vec<Seg> = (0..300)
+            .map(|k| {
+                let (x, y) = (k as f64, ((k * 7919) % 13) as f64);
+                ([x, y], [x + 1.0, ((k * 104_729) % 11) as f64])
+            })
+            .collect();
+        to.push(([-5.0, 0.0], [400.0, 3.0]));
+        to.push(([50.0, -10.0], [50.0, 30.0]));
+        let index = SegIndex::new(&to, 100);
+        assert!(index.0.is_some());
+        for q in [[0.5, 0.0, 3.0, 2.0], [-1.0, -1.0, 0.0, 0.0], [49.0, 20.0, 49.5, 25.0], [299.0, 0.0, 999.0, 99.0]] {
+            let mut got = Vec::new();
+            index.each(&to, &q, |a, b| {
+                if overlap(&seg_box(a, b, 0.0), &q) {
+                    got.push((a, b));
+                }
+            });
+            let mut want: Vec<Seg> = to.iter().copied().filter(|&(a, b)| overlap(&seg_box(a, b, 0.0), &q)).collect();
+            let key = |s: &Seg| (s.0[0], s.0[1], s.1[0], s.1[1]);
+            got.sort_by(|a, b| key(a).partial_cmp(&key(b)).unwrap());
+            want.sort_by(|a, b| key(a).partial_cmp(&key(b)).unwrap());
+            assert_eq!(got, want, "{q:?}");
+        }
     }
 
     #[test]

@@ -66,6 +66,31 @@ impl<'a> Polygons<'a> {
         Ok(this)
     }
 
+    /// The interleaved coordinates.
+    pub fn coords(&self) -> &'a [f64] {
+        self.xy.as_flattened()
+    }
+
+    /// The same units with other coordinates of the same length (a
+    /// rescaled copy; checked already through `self`).
+    pub fn with_coords<'b>(&'b self, coords: &'b [f64]) -> Polygons<'b> {
+        assert_eq!(coords.len(), 2 * self.xy.len(), "a copy of the coordinates has their length");
+        Polygons { xy: coords.as_chunks::<2>().0, rings: self.rings, polys: self.polys, units: self.units }
+    }
+
+    /// Push the segments of the exterior rings of unit u onto `out`, each
+    /// with the number of its ring (closed, zero-length segments skipped).
+    pub fn exterior_segments(&self, u: usize, out: &mut Vec<([f64; 2], [f64; 2], usize)>) {
+        for (r, (ext, ring)) in self.rings_of(u).enumerate() {
+            let m = ring.len();
+            if !ext || m < 2 {
+                continue;
+            }
+            let count = if ring[0] == ring[m - 1] { m - 1 } else { m };
+            out.extend((0..count).map(|k| (ring[k], ring[(k + 1) % m], r)).filter(|(a, b, _)| a != b));
+        }
+    }
+
     /// Number of units.
     pub fn n(&self) -> usize {
         self.units.len() - 1

@@ -2,19 +2,25 @@
 //! a stretch of boundary of positive length (rook), and how long each shared
 //! stretch is.
 //!
-//! Method: candidate pairs are the units whose bounding boxes, widened by
-//! the tolerance, overlap (found with a uniform grid, or an R-tree from
-//! `rstar` when box sizes vary too much for a grid; in parallel with
-//! `rayon`). For each candidate pair every boundary segment of one unit
-//! that reaches the other's box is tested against those of the other
-//! ([`contact`]): exactly, with robust orientation predicates, when the
-//! tolerance is 0, so shared borders need not have matching vertices (a
-//! vertex in the middle of the other unit's edge is found); within the
-//! tolerance otherwise. The shared length is the length of the union of the
-//! stretches of one unit's boundary that lie on the other's (with a
-//! tolerance: that run alongside it, within the tolerance and within 10
-//! degrees of parallel, see [`contact`]); with a tolerance it is the mean of
-//! the two sides, so the result stays symmetric.
+//! Method: coordinates are first brought near 1 by an exact power of two
+//! ([`Frame::near_one`]) when they are tiny or large, so that the same
+//! polygons at any scale give the same links and exactly scaled lengths
+//! (the tolerance is scaled with them). Candidate pairs are the units whose
+//! bounding boxes, widened by the tolerance, overlap ([`candidates`]: a
+//! uniform grid sized by the number of units, or an R-tree when a grid
+//! would be poor; in parallel with `rayon`). For each candidate pair every
+//! boundary segment of one unit that reaches the other's box is tested
+//! against those of the other that reach its box ([`contact`], through a
+//! per-pair sweep of the segments when there are many, so a long shared
+//! border costs about O(s log s), not O(s^2)): exactly, with robust
+//! orientation predicates, when the tolerance is 0, so shared borders need
+//! not have matching vertices (a vertex in the middle of the other unit's
+//! edge is found); within the tolerance otherwise. The shared length is
+//! the length of the union of the stretches of one unit's boundary that lie
+//! on the other's (with a tolerance: that run alongside it, within the
+//! tolerance and within 10 degrees of parallel, see [`contact`]); with a
+//! tolerance it is the mean of the two sides, so the result stays
+//! symmetric.
 //!
 //! Rules, exactly:
 //! * queen: the boundaries have a common point (with tolerance t: come
@@ -25,23 +31,33 @@
 //!   (inside a hole of it, or overlapping it) is its neighbour, as are
 //!   units whose boundaries cross.
 //!
-//! Complexity: O(n log n) for the tree, then about O(s^2) per candidate
-//! pair for s segments near the other unit.
+//! One definition of the shared length, so that every rook link has a
+//! positive one: the length of each unit's boundary that lies within the
+//! other (holes filled), counting the common boundary once,
+//! |bd A ∩ B| + |bd B ∩ A| - |bd A ∩ bd B|. For units that only touch this
+//! is their common border; for units whose boundaries cross, the perimeter
+//! of their overlap plus any common border outside it; for an enclave
+//! (a unit inside another's exterior ring, boundaries apart) the enclave's
+//! perimeter.
+//!
+//! Complexity: O(n log n) for the candidates, then about O(s log s) per
+//! candidate pair for s segments near the other unit.
 
+pub mod candidates;
 pub mod contact;
 pub mod geometry;
 
 use crate::csr::{build_rows, Csr};
-use crate::error::{Error, Pair, Result};
+use crate::error::{Error, Link, Pair, Result, Unit};
+use crate::frame::{times_pow2, Frame};
 use crate::guard::Guard;
 use crate::neighbors::metric::{haversine_km, Metric};
 use crate::neighbors::LINK_BYTES;
-use contact::{coincident_interval, meet_exact, near, union_length, Meet};
+use candidates::Candidates;
+use contact::{coincident_interval, inside_length, meet_exact, near, seg_box, union_length, Fill, Meet, Seg, SegIndex};
 use geometry::BBox;
 pub use geometry::Polygons;
 use rayon::prelude::*;
-use rstar::primitives::{GeomWithData, Rectangle};
-use rstar::{RTree, AABB};
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Which contact makes two units neighbours.
@@ -91,8 +107,6 @@ fn inside_box(inner: &BBox, outer: &BBox) -> bool {
     inner[0] >= outer[0] && inner[1] >= outer[1] && inner[2] <= outer[2] && inner[3] <= outer[3]
 }
 
-type Seg = ([f64; 2], [f64; 2]);
-
 /// What one boundary knows of another.
 #[derive(Default)]
 struct Touch {
@@ -101,21 +115,29 @@ struct Touch {
 }
 
 /// Length of the part of the segments `from` lying on / alongside the segments `to`.
-fn covered(from: &[Seg], to: &[Seg], tol: f64, metric: Metric, touch: &mut Touch, iv: &mut Vec<(f64, f64)>) -> f64 {
+fn covered(
+    from: &[Seg],
+    to: &[Seg],
+    index: &SegIndex,
+    tol: f64,
+    metric: Metric,
+    touch: &mut Touch,
+    iv: &mut Vec<(f64, f64)>,
+) -> f64 {
     let mut total = 0.0;
     for &(a0, a1) in from {
         iv.clear();
-        let ab = [a0[0].min(a1[0]) - tol, a0[1].min(a1[1]) - tol, a0[0].max(a1[0]) + tol, a0[1].max(a1[1]) + tol];
-        for &(b0, b1) in to {
+        let ab = seg_box(a0, a1, tol);
+        index.each(to, &ab, |b0, b1| {
             // most pairs of segments are apart: reject them by their boxes
             if !seg_meets_box(b0, b1, &ab) {
-                continue;
+                return;
             }
             if (a0 == b1 && a1 == b0) || (a0 == b0 && a1 == b1) {
                 // the same edge in both units (clean shared vertices)
                 touch.contact = true;
                 iv.push((0.0, 1.0));
-                continue;
+                return;
             }
             if tol == 0.0 {
                 match meet_exact(a0, a1, b0, b1) {
@@ -137,7 +159,7 @@ fn covered(from: &[Seg], to: &[Seg], tol: f64, metric: Metric, touch: &mut Touch
                     iv.push(r);
                 }
             }
-        }
+        });
         if !iv.is_empty() {
             total += union_length(iv, seg_length(metric, a0, a1));
         }
@@ -153,8 +175,19 @@ struct Scratch {
     iv: Vec<(f64, f64)>,
 }
 
+/// The shared length of units i and j whose boundaries cross (see the
+/// module notes): |bd i ∩ j| + |bd j ∩ i| - |bd i ∩ bd j|, the common
+/// boundary taken as the mean of what each side finds on the other.
+fn overlap_length(p: &Polygons<'_>, i: usize, j: usize, s: &Scratch, metric: Metric) -> f64 {
+    let (Some(mut fi), Some(mut fj)) = (Fill::new(p, i), Fill::new(p, j)) else { return 0.0 };
+    let len = |a, b| seg_length(metric, a, b);
+    let (in_i, on_i) = inside_length(&s.si, &s.sj, &SegIndex::new(&s.sj, s.si.len()), &mut fj, len);
+    let (in_j, on_j) = inside_length(&s.sj, &s.si, &SegIndex::new(&s.si, s.sj.len()), &mut fi, len);
+    (in_i + in_j - 0.5 * (on_i + on_j)).max(0.0)
+}
+
 /// Contact of units i and j: None when they are not neighbours under queen,
-/// else (rook, shared length).
+/// else (rook, shared length); a rook contact has a positive length.
 fn pair(
     p: &Polygons<'_>,
     i: usize,
@@ -174,42 +207,78 @@ fn pair(
     s.sj.clear();
     p.segments_meeting(j, &wi, &mut s.sj);
     let mut touch = Touch::default();
-    let mut length = covered(&s.si, &s.sj, tol, metric, &mut touch, &mut s.iv);
+    let to_j = SegIndex::new(&s.sj, s.si.len());
+    let mut length = covered(&s.si, &s.sj, &to_j, tol, metric, &mut touch, &mut s.iv);
     if tol > 0.0 && touch.contact {
-        let other = covered(&s.sj, &s.si, tol, metric, &mut touch, &mut s.iv);
+        let to_i = SegIndex::new(&s.si, s.sj.len());
+        let other = covered(&s.sj, &s.si, &to_i, tol, metric, &mut touch, &mut s.iv);
         length = 0.5 * (length + other);
     }
     let mut contact = touch.contact;
-    // crossing boundaries: the units overlap, neighbours under both rules
-    let mut rook = touch.crossed || if tol == 0.0 { length > 0.0 } else { length > tol };
+    let mut rook = if tol == 0.0 { length > 0.0 } else { length > tol };
+    if touch.crossed {
+        // crossing boundaries: the units overlap, neighbours under both
+        // rules, sharing the boundary within the overlap
+        length = length.max(overlap_length(p, i, j, s, metric));
+        rook = length > 0.0;
+    }
     if !contact {
         // no common boundary: neighbours only if one lies inside the other
+        // (an enclave), sharing the enclave's whole boundary
         let within = |inner: usize, outer: usize, bin: &BBox, bout: &BBox| {
             inside_box(bin, bout) && p.first_point(inner).is_some_and(|q| p.inside_exterior(outer, q))
         };
-        if within(j, i, &bj, &bi) || within(i, j, &bi, &bj) {
+        let inner = if within(j, i, &bj, &bi) {
+            Some(j)
+        } else if within(i, j, &bi, &bj) {
+            Some(i)
+        } else {
+            None
+        };
+        if let Some(u) = inner {
             contact = true;
-            rook = true;
+            length = perimeter_of(p, u, metric);
+            rook = length > 0.0;
         }
     }
     contact.then_some((rook, length))
 }
 
+fn perimeter_of(p: &Polygons<'_>, u: usize, metric: Metric) -> f64 {
+    p.segments_of(u).fold(0.0, |acc, (a, b)| acc + seg_length(metric, a, b))
+}
+
 /// Contiguity of polygons under `rule`, with `tolerance` in coordinate
 /// units; shared lengths and perimeters are measured in `lengths`
-/// (coordinate units, or km along great circles for lon/lat).
+/// (coordinate units, or km along great circles for lon/lat). Tiny or
+/// large coordinates are computed on in a rescaled frame (exact), and
+/// refused ([`Error::CoordinateSpan`]) when their span is too wide for it.
 pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric, guard: &Guard) -> Result<Contiguity> {
     if !(tolerance >= 0.0) || !tolerance.is_finite() {
         return Err(Error::InvalidTolerance { tolerance });
     }
+    let frame = Frame::near_one(p.coords(), lengths == Metric::Euclidean)?;
+    let local = frame.local(p.coords());
+    let mut c = contiguity_in(&p.with_coords(&local), rule, frame.to_local(tolerance), lengths, guard)?;
+    to_world(&frame, &mut c);
+    Ok(c)
+}
+
+/// The lengths of `c`, computed in `frame`, in world units.
+fn to_world(frame: &Frame, c: &mut Contiguity) {
+    frame.lengths_to_world(&mut c.perimeter);
+    if !frame.is_identity() {
+        c.graph = c.graph.view().with_data(c.graph.view().data().iter().map(|&v| frame.to_world(v)).collect());
+    }
+}
+
+/// Contiguity in the frame of the coordinates given.
+fn contiguity_in(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric, guard: &Guard) -> Result<Contiguity> {
     let n = p.n();
     let boxes: Vec<Option<BBox>> = (0..n).into_par_iter().map(|u| p.bbox(u)).collect();
     let empty: Vec<usize> = (0..n).filter(|&u| boxes[u].is_none()).collect();
     let wide: Vec<Option<BBox>> = boxes.iter().map(|b| b.map(|b| widen(b, tolerance))).collect();
-    let index = match Grid::new(&wide) {
-        Some(g) => Candidates::Grid(g),
-        None => Candidates::Tree(tree_of(&wide)),
-    };
+    let index = Candidates::new(&wide);
     // the upper triangle, row by row, then mirrored
     let room = (guard.memory_limit() as f64 / (2.0 * LINK_BYTES)) as usize;
     let links = AtomicUsize::new(0);
@@ -244,146 +313,8 @@ pub fn contiguity(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric,
         },
     )?;
     let graph = Csr::from_parts(n, upper).view().plus_transpose();
-    let perimeter = (0..n)
-        .into_par_iter()
-        .map(|u| p.segments_of(u).fold(0.0, |acc, (a, b)| acc + seg_length(lengths, a, b)))
-        .collect();
+    let perimeter = (0..n).into_par_iter().map(|u| perimeter_of(p, u, lengths)).collect();
     Ok(Contiguity { graph, perimeter, empty })
-}
-
-fn overlap(a: &BBox, b: &BBox) -> bool {
-    a[0] <= b[2] && b[0] <= a[2] && a[1] <= b[3] && b[1] <= a[3]
-}
-
-/// An R-tree (`rstar`) of the boxes, for data whose box sizes vary too much
-/// for the uniform grid.
-fn tree_of(boxes: &[Option<BBox>]) -> RTree<GeomWithData<Rectangle<[f64; 2]>, usize>> {
-    let items = boxes
-        .iter()
-        .enumerate()
-        .filter_map(|(u, b)| b.map(|b| GeomWithData::new(Rectangle::from_corners([b[0], b[1]], [b[2], b[3]]), u)))
-        .collect();
-    RTree::bulk_load(items)
-}
-
-/// What finds the candidate pairs.
-enum Candidates {
-    Grid(Grid),
-    Tree(RTree<GeomWithData<Rectangle<[f64; 2]>, usize>>),
-}
-
-impl Candidates {
-    /// Push onto `out` the units after i whose boxes overlap i's box (unsorted, once each).
-    fn visit(&self, boxes: &[Option<BBox>], i: usize, out: &mut Vec<usize>) {
-        let Some(bi) = boxes[i] else { return };
-        match self {
-            Candidates::Tree(tree) => {
-                let env = AABB::from_corners([bi[0], bi[1]], [bi[2], bi[3]]);
-                out.extend(tree.locate_in_envelope_intersecting(&env).map(|g| g.data).filter(|&j| j > i));
-            }
-            Candidates::Grid(g) => {
-                let (c0, r0, c1, r1) = g.span(&bi);
-                for r in r0..=r1 {
-                    for c in c0..=c1 {
-                        let id = r * g.gx + c;
-                        for &j in &g.members[g.start[id]..g.start[id + 1]] {
-                            let j = j as usize;
-                            let Some(bj) = boxes[j] else { continue };
-                            // report the pair only from the cell that holds the
-                            // low corner of the overlap of the two boxes
-                            if j > i
-                                && overlap(&bi, &bj)
-                                && g.col(bi[0].max(bj[0])) == c
-                                && g.row(bi[1].max(bj[1])) == r
-                            {
-                                out.push(j);
-                            }
-                        }
-                    }
-                }
-            }
-        }
-    }
-}
-
-/// A uniform grid whose cells are about the median box size: every box is
-/// filed under the cells it covers. Measured on 10^6 Voronoi cells, filing
-/// and visiting take about half the time of building and querying the
-/// R-tree.
-struct Grid {
-    ext: BBox,
-    cell: f64,
-    gx: usize,
-    gy: usize,
-    start: Vec<usize>,
-    members: Vec<u32>,
-}
-
-impl Grid {
-    fn col(&self, x: f64) -> usize {
-        (((x - self.ext[0]) / self.cell) as usize).min(self.gx - 1)
-    }
-    fn row(&self, y: f64) -> usize {
-        (((y - self.ext[1]) / self.cell) as usize).min(self.gy - 1)
-    }
-    fn span(&self, b: &BBox) -> (usize, usize, usize, usize) {
-        (self.col(b[0]), self.row(b[1]), self.col(b[2]), self.row(b[3]))
-    }
-
-    /// None when boxes vary so much in size that the grid would file them
-    /// too many times (then the R-tree serves).
-    fn new(boxes: &[Option<BBox>]) -> Option<Self> {
-        let live: Vec<BBox> = boxes.iter().flatten().copied().collect();
-        if live.len() < 2 || boxes.len() > u32::MAX as usize {
-            return None;
-        }
-        let ext = live.iter().fold([f64::INFINITY, f64::INFINITY, f64::NEG_INFINITY, f64::NEG_INFINITY], |e, b| {
-            [e[0].min(b[0]), e[1].min(b[1]), e[2].max(b[2]), e[3].max(b[3])]
-        });
-        let (width, height) = (ext[2] - ext[0], ext[3] - ext[1]);
-        let mut sizes: Vec<f64> = live.iter().map(|b| (b[2] - b[0]).max(b[3] - b[1])).collect();
-        let mid = sizes.len() / 2;
-        let mut cell = *sizes.select_nth_unstable_by(mid, f64::total_cmp).1;
-        if !(cell > 0.0) || !(width > 0.0) || !(height > 0.0) {
-            return None;
-        }
-        // at most about 4 cells per unit
-        let limit = 4.0 * live.len() as f64;
-        if (width / cell + 1.0) * (height / cell + 1.0) > limit {
-            cell = ((width * height) / limit).sqrt().max(cell);
-        }
-        let (gx, gy) = ((width / cell) as usize + 1, (height / cell) as usize + 1);
-        let mut g = Grid { ext, cell, gx, gy, start: vec![0; gx * gy + 1], members: Vec::new() };
-        let mut filed = 0usize;
-        for b in &live {
-            let (c0, r0, c1, r1) = g.span(b);
-            filed += (c1 - c0 + 1) * (r1 - r0 + 1);
-            if filed > 16 * live.len() {
-                return None;
-            }
-            for r in r0..=r1 {
-                for c in c0..=c1 {
-                    g.start[r * gx + c + 1] += 1;
-                }
-            }
-        }
-        for k in 0..gx * gy {
-            g.start[k + 1] += g.start[k];
-        }
-        let mut slot = g.start.clone();
-        g.members = vec![0u32; filed];
-        for (u, b) in boxes.iter().enumerate() {
-            let Some(b) = b else { continue };
-            let (c0, r0, c1, r1) = g.span(b);
-            for r in r0..=r1 {
-                for c in c0..=c1 {
-                    g.members[slot[r * gx + c]] = u as u32;
-                    slot[r * gx + c] += 1;
-                }
-            }
-        }
-        Some(g)
-    }
 }
 
 /// Centroid of unit u (area-weighted over its polygons, holes subtracted),
@@ -411,16 +342,67 @@ pub fn centroid(p: &Polygons<'_>, u: usize) -> Option<[f64; 2]> {
 }
 
 /// Centroids of all units as interleaved x, y (NaN for a unit without
-/// one), in parallel.
-pub fn centroids(p: &Polygons<'_>) -> Vec<f64> {
-    use rayon::prelude::*;
-    (0..p.n()).into_par_iter().with_min_len(256).flat_map_iter(|u| centroid(p, u).unwrap_or([f64::NAN; 2])).collect()
+/// one), in parallel, computed in a frame near 1 (so tiny and large
+/// coordinates neither underflow nor overflow the area sums).
+pub fn centroids(p: &Polygons<'_>) -> Result<Vec<f64>> {
+    let frame = Frame::near_one(p.coords(), true)?;
+    let local = frame.local(p.coords());
+    let lp = p.with_coords(&local);
+    Ok((0..p.n())
+        .into_par_iter()
+        .with_min_len(256)
+        .flat_map_iter(|u| centroid(&lp, u).map_or([f64::NAN; 2], |c| c.map(|v| frame.to_world(v))))
+        .collect())
+}
+
+/// The checks of the Cliff-Ord parameters and, for great circles, of the
+/// longitude / latitude ranges (as for points).
+fn check_cliff_ord(p: &Polygons<'_>, powers: [(&'static str, f64); 2], tolerance: f64, metric: Metric) -> Result<()> {
+    for (name, value) in powers {
+        if !(value >= 0.0) || !value.is_finite() {
+            return Err(Error::InvalidPower { name, value });
+        }
+    }
+    if !(tolerance >= 0.0) || !tolerance.is_finite() {
+        return Err(Error::InvalidTolerance { tolerance });
+    }
+    if metric == Metric::GreatCircle {
+        for u in 0..p.n() {
+            for q in p.rings_of(u).flat_map(|(_, ring)| ring) {
+                if !(-180.0..=360.0).contains(&q[0]) {
+                    return Err(Error::LongitudeOutOfRange { unit: Unit(u), value: q[0] });
+                }
+                if !(-90.0..=90.0).contains(&q[1]) {
+                    return Err(Error::LatitudeOutOfRange { unit: Unit(u), value: q[1] });
+                }
+            }
+        }
+    }
+    Ok(())
+}
+
+/// share^a / d^b * 2^(e b): the Cliff-Ord weight for a distance `d`
+/// measured in a frame 2^e times the world's. Direct when the powers stay
+/// in range (bit for bit the plain formula when e = 0), else in log space;
+/// 0, subnormal or infinite when the weight itself is out of range.
+fn cliff_ord_weight(share: f64, d: f64, a: f64, b: f64, e: i32) -> f64 {
+    let scale = f64::from(e) * b;
+    let direct = share.powf(a) / d.powf(b);
+    if direct.is_normal() && scale.abs() <= 2100.0 {
+        let whole = scale.floor();
+        return times_pow2(direct * (scale - whole).exp2(), whole as i32);
+    }
+    let log_d = if b == 0.0 { 0.0 } else { b * d.ln() };
+    (a * share.ln() - log_d + scale * std::f64::consts::LN_2).exp()
 }
 
 /// Cliff-Ord weights (Cliff and Ord 1981): w_ij = (b_ij / p_i)^a / d_ij^b for
 /// rook neighbours, with b_ij the shared border length, p_i the perimeter
 /// of i (so b_ij / p_i is the share of i's boundary shared with j) and d_ij
-/// the distance between the centroids. Asymmetric in general.
+/// the distance between the centroids. Asymmetric in general. The powers
+/// must be finite and >= 0 ([`Error::InvalidPower`]); a weight beyond the
+/// range of floating point is refused ([`Error::WeightOutOfRange`]), never
+/// stored as 0 or infinity.
 pub fn cliff_ord(
     p: &Polygons<'_>,
     border_power: f64,
@@ -429,9 +411,13 @@ pub fn cliff_ord(
     metric: Metric,
     guard: &Guard,
 ) -> Result<(Csr, Contiguity)> {
-    let c = contiguity(p, Rule::Rook, tolerance, metric, guard)?;
+    check_cliff_ord(p, [("border_power", border_power), ("distance_power", distance_power)], tolerance, metric)?;
+    let frame = Frame::near_one(p.coords(), metric == Metric::Euclidean)?;
+    let local = frame.local(p.coords());
+    let lp = p.with_coords(&local);
+    let mut c = contiguity_in(&lp, Rule::Rook, frame.to_local(tolerance), metric, guard)?;
     let n = p.n();
-    let centres: Vec<Option<[f64; 2]>> = (0..n).into_par_iter().map(|u| centroid(p, u)).collect();
+    let centres: Vec<Option<[f64; 2]>> = (0..n).into_par_iter().map(|u| centroid(&lp, u)).collect();
     let g = c.graph.view();
     let mut rows = Vec::with_capacity(n);
     for i in 0..n {
@@ -446,14 +432,40 @@ pub fn cliff_ord(
             if d == 0.0 && distance_power != 0.0 {
                 return Err(Error::CoincidentCentroids { pair: Pair(i, j) });
             }
-            let share = if c.perimeter[i] > 0.0 { len / c.perimeter[i] } else { 0.0 };
-            let w = share.powf(border_power) / d.powf(distance_power);
-            // a unit inside another without a shared border has share 0: no link
-            if w > 0.0 {
-                row.push((j, w));
+            // a rook link has a positive length, so a positive share
+            let w = cliff_ord_weight(len / c.perimeter[i], d, border_power, distance_power, frame.exponent());
+            // subnormal weights would have lost digits: refused with the others
+            if !w.is_normal() {
+                return Err(Error::WeightOutOfRange {
+                    what: "Cliff-Ord weight",
+                    link: Link(i, j),
+                    value: w,
+                    advice: "use smaller powers, or rescale the coordinates so that distances are nearer 1",
+                });
             }
+            row.push((j, w));
         }
         rows.push(row);
     }
+    to_world(&frame, &mut c);
     Ok((Csr::from_rows(rows), c))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn cliff_ord_weights_in_any_frame() {
+        // the plain formula (Cliff and Ord 1981): 0.25 / 0.5^2 = 1
+        assert_eq!(cliff_ord_weight(0.25, 0.5, 1.0, 2.0, 0), 1.0);
+        // a frame 2^-10 times the world: d_world = 0.5 * 2^10, w = 0.25 / 2^18 = 2^-20
+        assert_eq!(cliff_ord_weight(0.25, 0.5, 1.0, 2.0, -10), 2f64.powi(-20));
+        // 0.25^600 underflows on the way; the weight 0.5^600 / 0.25^600 = 2^600 does not
+        let w = cliff_ord_weight(0.5, 0.25, 600.0, 600.0, 0);
+        assert!((w.log2() - 600.0).abs() < 1e-9, "{w}");
+        // beyond floating point: infinite, refused by the caller
+        assert_eq!(cliff_ord_weight(0.5, 0.25, 1.0, 1e6, 0), f64::INFINITY);
+        assert_eq!(cliff_ord_weight(0.5, 0.25, 1e6, 0.0, 0), 0.0);
+    }
 }

@@ -460,3 +460,23 @@ def test_readme_audit_section_runs_and_its_shown_output_is_true():
     m = scope["fixed"].to_scipy()
     assert len(list(nx.connected_components(nx.from_scipy_sparse_array(m)))) == 1
     assert (np.diff(m.indptr) > 0).all()  # reference: scipy row counts
+
+
+def test_demo_section_seven_intervals_trade_network_and_local_pictures(tmp_path, capsys):
+    tables = demo.run(tmp_path, permutations=99)
+    out = capsys.readouterr().out
+    assert "exogenous to the outcome" in out  # the trade network's caution is printed
+    more = tables["more_candidates"]
+    assert {"inverse distance, 6 nearest", "triangular kernel, adaptive 10", "trade flows"} <= set(more.index)
+    # numpy.linalg.eigvals as the outside reference for the interval of rho
+    places = demo.settlements()
+    w = vicino.from_edges(
+        demo.trade_flows(places), source="origin", target="destination", weight="loads", ids=places.index
+    ).standardize("row", islands="keep")
+    real = np.linalg.eigvals(w.to_dense())
+    real = real[np.abs(real.imag) < 1e-9].real
+    assert more.loc["trade flows", "rho from"] == pytest.approx(1 / real.min(), rel=1e-6)
+    assert more.loc["trade flows", "rho to"] == pytest.approx(1 / real.max(), rel=1e-6)
+    assert (tmp_path / "moran_scatterplot.png").stat().st_size > 0
+    assert (tmp_path / "local_moran_clusters.png").stat().st_size > 0
+    assert len(tables["local_moran"]) == len(places)

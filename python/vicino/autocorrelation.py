@@ -39,8 +39,11 @@ from .stats import (
     PermutationInference,
     _permutations,
     _seed,
+    checked,
     moran,
     normal_p,
+    permutation_inference,
+    recipe_text,
 )
 from .weights import Weights, aligned_values, core_matrix, neighbour_counts
 
@@ -57,26 +60,6 @@ __all__ = [
 ]
 
 STATISTICS = ("moran", "geary", "getis_ord")
-
-
-def _recipe(weights: Weights) -> str:
-    return " -> ".join(str(s) for s in weights.recipe)
-
-
-def _checked(weights: Any, permutations: Any, alternative: Any, seed: Any) -> tuple[int, int]:
-    if not isinstance(weights, Weights):
-        raise InvalidTypeError(f"weights must be vicino.Weights, got {type(weights).__name__}; see vicino.from_matrix")
-    r = _permutations(permutations)
-    choice(alternative, "alternative", ALTERNATIVES)
-    return r, _seed(seed)
-
-
-def _permutation(out: Any, permutations: int, seed: int) -> PermutationInference | None:
-    if out is None:
-        return None
-    extreme, p_value, mean, std, z, draws = out
-    draws.flags.writeable = False
-    return PermutationInference(permutations, seed, extreme, p_value, mean, std, z, draws)
 
 
 # ---------------------------------------------------------------- Geary's C and Getis-Ord G
@@ -188,7 +171,7 @@ def _global(
     seed: Any,
     alternative: Any,
 ) -> Any:
-    r, seed = _checked(weights, permutations, alternative, seed)
+    r, seed = checked(weights, permutations, alternative, seed)
     x, _ = aligned_values(weights, values, allow_2d=False)
     out = fn(core_matrix(weights), x, r, seed, alternative, weights.ids)
 
@@ -205,11 +188,11 @@ def _global(
         alternative,
         normality,
         analytic("randomization"),
-        _permutation(out.permutation, r, seed),
+        permutation_inference(out.permutation, r, seed),
         out.s0,
         out.s1,
         out.s2,
-        _recipe(weights),
+        recipe_text(weights),
     )
 
 
@@ -479,7 +462,7 @@ def join_counts(
     approximation is poor when one label is rare; prefer the permutation
     p-value then.
     """
-    r, seed = _checked(weights, permutations, alternative, seed)
+    r, seed = checked(weights, permutations, alternative, seed)
     x, labels, label_counts = _binary(values, weights)
     (s0, s1, s2), _, joins = core.join_counts(core_matrix(weights), x, r, seed, alternative, weights.ids)
 
@@ -494,13 +477,13 @@ def join_counts(
             c,
             inference("free sampling", free),
             inference("non-free sampling", nonfree),
-            _permutation(perm, r, seed),
+            permutation_inference(perm, r, seed),
         )
 
     names = (f"both {labels[1]}", f"both {labels[0]}", "unlike")
     ones, zeros, unlike = (count(name, out) for name, out in zip(names, joins, strict=True))
     return JoinCountsResult(
-        labels, label_counts, (ones, zeros), unlike, len(x), alternative, s0, s1, s2, _recipe(weights)
+        labels, label_counts, (ones, zeros), unlike, len(x), alternative, s0, s1, s2, recipe_text(weights)
     )
 
 

@@ -138,15 +138,21 @@ def _read_sidecar(path: Path, n: int | None) -> pd.Index:
             stacklevel=4,
         )
         return pd.RangeIndex(n)
+    ids = _ids_in(side)
+    if n is not None and len(ids) != n:
+        raise FileFormatError(f"{side}: {len(ids)} ids for the {n} units of {path.name}; give one id per unit")
+    if not ids.is_unique:
+        raise FileFormatError(
+            f"{side}: ids repeat: {examples(ids[ids.duplicated()].unique())}; each unit needs its own id"
+        )
+    return ids
+
+
+def _ids_in(side: Path) -> pd.Index:
+    """The ids of an ids file: whole numbers read by the core, text by pandas (CSV quoting)."""
     ints, _ = core.read_int_ids(str(side))
     if ints is not None:
-        if n is not None and len(ints) != n:
-            raise FileFormatError(f"{side}: {len(ints)} ids for the {n} units of {path.name}; give one id per unit")
-        ids = pd.Index(ints)
-        if not ids.is_unique:
-            again = examples(ids[ids.duplicated()].unique())
-            raise FileFormatError(f"{side}: ids repeat: {again}; each unit needs its own id")
-        return ids
+        return pd.Index(ints)
     try:
         frame = pd.read_csv(side, dtype=str, keep_default_na=False, na_filter=False)
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
@@ -155,13 +161,7 @@ def _read_sidecar(path: Path, n: int | None) -> pd.Index:
         ) from None
     if frame.shape[1] != 1 or not str(frame.columns[0]).startswith("id:"):
         raise FileFormatError(f"{side}, line 1: the header must be id:int64 or id:str, got {list(frame.columns)}")
-    if n is not None and len(frame) != n:
-        raise FileFormatError(f"{side}: {len(frame)} ids for the {n} units of {path.name}; give one id per unit")
-    ids = _typed_ids(frame.iloc[:, 0].to_numpy(), str(frame.columns[0])[3:], str(side))
-    if not ids.is_unique:
-        dup = ids[ids.duplicated()].unique()
-        raise FileFormatError(f"{side}: ids repeat: {examples(dup)}; each unit needs its own id")
-    return ids
+    return _typed_ids(frame.iloc[:, 0].to_numpy(), str(frame.columns[0])[3:], str(side))
 
 
 # ---- the record -------------------------------------------------------------------------------

@@ -28,7 +28,7 @@ from . import _gateway as core
 from ._checks import choice, real_number
 from ._ids import examples
 from .errors import InvalidParameterError, InvalidTypeError, InvalidValuesError
-from .stats import ALTERNATIVES, Alternative, _permutations, _seed
+from .stats import Alternative, checked, recipe_text
 from .weights import Weights, aligned_values, core_matrix
 
 Adjustment = Literal["none", "fdr", "bonferroni"]
@@ -52,16 +52,16 @@ def normal_p_values(z: np.ndarray, alternative: str) -> np.ndarray:
     return np.minimum(1.0, 2.0 * ndtr(-np.abs(z)))
 
 
-def _checks(weights: Any, permutations: Any, alternative: Any, alpha: Any, adjust: Any) -> tuple[int, float]:
-    if not isinstance(weights, Weights):
-        raise InvalidTypeError(f"weights must be vicino.Weights, got {type(weights).__name__}; see vicino.from_matrix")
-    r = _permutations(permutations)
-    choice(alternative, "alternative", ALTERNATIVES)
+def _checks(
+    weights: Any, permutations: Any, alternative: Any, seed: Any, alpha: Any, adjust: Any
+) -> tuple[int, int, float]:
+    """(permutations, seed to use, alpha) after the checks of every statistic and of alpha and adjust."""
+    r, seed_used = checked(weights, permutations, alternative, seed)
     choice(adjust, "adjust", ADJUSTMENTS)
     a = real_number(alpha, "alpha")
     if not 0.0 < a < 1.0:
         raise InvalidParameterError(f"alpha = {a} is not a significance level: give a number between 0 and 1 (0.05)")
-    return r, a
+    return r, seed_used, a
 
 
 def _note(weights: Weights, islands: list[int]) -> str | None:
@@ -127,8 +127,37 @@ def _html(r: Any, what: str) -> str:
     return "<div>" + head + "</p>" + shown + more + "</div>"
 
 
+class _LocalResult:
+    """What local results share: read-only arrays, ``n``, and their text and HTML views."""
+
+    ids: pd.Index
+
+    def __post_init__(self) -> None:
+        _read_only(self)
+
+    @property
+    def n(self) -> int:
+        """Number of units."""
+        return len(self.ids)
+
+    def _title(self) -> str:
+        raise NotImplementedError
+
+    def table(self) -> pd.DataFrame:
+        """One row per unit, indexed by id."""
+        raise NotImplementedError
+
+    def __str__(self) -> str:
+        lines = _summary_lines(self, self._title())
+        lines.append(self.table().head(_ROWS_SHOWN).to_string(float_format=lambda v: f"{v:.4g}"))
+        return "\n".join(lines)
+
+    def _repr_html_(self) -> str:
+        return _html(self, self._title())
+
+
 @dataclass(frozen=True)
-class LocalMoranResult:
+class LocalMoranResult(_LocalResult):
     """Local Moran's I of every unit, with its inference (arrays in the order of ``ids``).
 
     ``p_value`` is analytic (randomization moments, normal tail);
@@ -163,14 +192,6 @@ class LocalMoranResult:
     weights: str
     note: str | None
 
-    def __post_init__(self) -> None:
-        _read_only(self)
-
-    @property
-    def n(self) -> int:
-        """Number of units."""
-        return len(self.ids)
-
     def counts_text(self) -> str:
         """Significant units per quadrant, as text."""
         q = self.quadrant[self.significant]
@@ -200,17 +221,12 @@ class LocalMoranResult:
         cols["significant"] = _boolean(self.significant, self.islands_mask)
         return pd.DataFrame(cols, index=self.ids)
 
-    def __str__(self) -> str:
-        lines = _summary_lines(self, "Local Moran's I")
-        lines.append(self.table().head(_ROWS_SHOWN).to_string(float_format=lambda v: f"{v:.4g}"))
-        return "\n".join(lines)
-
-    def _repr_html_(self) -> str:
-        return _html(self, "Local Moran's I")
+    def _title(self) -> str:
+        return "Local Moran's I"
 
 
 @dataclass(frozen=True)
-class LocalGetisOrdResult:
+class LocalGetisOrdResult(_LocalResult):
     """Local Getis-Ord G_i (or G_i* when ``star``) of every unit, with its inference.
 
     ``statistic`` is the ratio G_i, ``expected`` its mean under
@@ -241,14 +257,6 @@ class LocalGetisOrdResult:
     weights: str
     note: str | None
 
-    def __post_init__(self) -> None:
-        _read_only(self)
-
-    @property
-    def n(self) -> int:
-        """Number of units."""
-        return len(self.ids)
-
     def counts_text(self) -> str:
         """Significant hot and cold spots, as text."""
         s = self.spot[self.significant]
@@ -268,14 +276,6 @@ class LocalGetisOrdResult:
 
     def _title(self) -> str:
         return "Local G_i*" if self.star else "Local G_i"
-
-    def __str__(self) -> str:
-        lines = _summary_lines(self, self._title())
-        lines.append(self.table().head(_ROWS_SHOWN).to_string(float_format=lambda v: f"{v:.4g}"))
-        return "\n".join(lines)
-
-    def _repr_html_(self) -> str:
-        return _html(self, self._title())
 
 
 def _read_only(result: Any) -> None:
@@ -351,8 +351,7 @@ def local_moran(
     by chance, and a significant unit says the pattern is unlikely under
     random assignment for these weights, not why it is there.
     """
-    r_count, a = _checks(weights, permutations, alternative, alpha, adjust)
-    seed_used = _seed(seed)
+    r_count, seed_used, a = _checks(weights, permutations, alternative, seed, alpha, adjust)
     x, _ = aligned_values(weights, values, allow_2d=False)
     r = core.local_moran(core_matrix(weights), x, r_count, seed_used, alternative, weights.ids)
     inf = _inference(r.z, r.permutation, alternative, adjust, a)
@@ -381,7 +380,7 @@ def local_moran(
         permutations=r_count,
         seed=seed_used if r_count else None,
         kurtosis=r.kurtosis,
-        weights=" -> ".join(str(s) for s in weights.recipe),
+        weights=recipe_text(weights),
         note=_note(weights, r.islands),
     )
 
@@ -440,8 +439,7 @@ def local_getis_ord(
     """
     if not isinstance(star, (bool, np.bool_)):
         raise InvalidTypeError(f"star must be True or False, got {star!r}")
-    r_count, a = _checks(weights, permutations, alternative, alpha, adjust)
-    seed_used = _seed(seed)
+    r_count, seed_used, a = _checks(weights, permutations, alternative, seed, alpha, adjust)
     x, _ = aligned_values(weights, values, allow_2d=False)
     negative = np.flatnonzero(x < 0)
     if len(negative):
@@ -477,6 +475,6 @@ def local_getis_ord(
         adjust=adjust,
         permutations=r_count,
         seed=seed_used if r_count else None,
-        weights=" -> ".join(str(s) for s in weights.recipe),
+        weights=recipe_text(weights),
         note=_note(weights, r.islands),
     )

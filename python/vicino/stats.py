@@ -143,6 +143,29 @@ def _permutations(permutations: Any) -> int:
     return r
 
 
+def checked(weights: Any, permutations: Any, alternative: Any, seed: Any) -> tuple[int, int]:
+    """The checks every statistic makes of its arguments: (permutations, seed to use)."""
+    if not isinstance(weights, Weights):
+        raise InvalidTypeError(f"weights must be vicino.Weights, got {type(weights).__name__}; see vicino.from_matrix")
+    r = _permutations(permutations)
+    choice(alternative, "alternative", ALTERNATIVES)
+    return r, _seed(seed)
+
+
+def permutation_inference(out: Any, permutations: int, seed: int) -> PermutationInference | None:
+    """The permutation summary the core returned, as a result (None when no draws were made)."""
+    if out is None:
+        return None
+    extreme, p_value, mean, std, z, draws = out
+    draws.flags.writeable = False
+    return PermutationInference(permutations, seed, extreme, p_value, mean, std, z, draws)
+
+
+def recipe_text(weights: Weights) -> str:
+    """The recipe of ``weights`` on one line, as results name their weights."""
+    return " -> ".join(str(s) for s in weights.recipe)
+
+
 def moran(
     values: Any,
     weights: Weights,
@@ -186,11 +209,7 @@ def moran(
     pattern is unlikely under random assignment of the values to units *for
     these weights*; it does not say why.
     """
-    if not isinstance(weights, Weights):
-        raise InvalidTypeError(f"weights must be vicino.Weights, got {type(weights).__name__}; see vicino.from_matrix")
-    permutations = _permutations(permutations)
-    choice(alternative, "alternative", ALTERNATIVES)
-    seed = _seed(seed)
+    permutations, seed = checked(weights, permutations, alternative, seed)
     x, _ = aligned_values(weights, values, allow_2d=False)
     r = core.moran(core_matrix(weights), x, permutations, seed, alternative, weights.ids)
 
@@ -198,11 +217,6 @@ def moran(
         z = getattr(r, f"{name}_z")
         return AnalyticInference(name, getattr(r, f"{name}_variance"), z, normal_p(z, alternative))
 
-    perm = None
-    if r.permutation is not None:
-        extreme, p_value, mean, std, z, draws = r.permutation
-        draws.flags.writeable = False
-        perm = PermutationInference(permutations, seed, extreme, p_value, mean, std, z, draws)
     return MoranResult(
         r.statistic,
         r.expected,
@@ -210,9 +224,9 @@ def moran(
         alternative,
         analytic("normality"),
         analytic("randomization"),
-        perm,
+        permutation_inference(r.permutation, permutations, seed),
         r.s0,
         r.s1,
         r.s2,
-        " -> ".join(str(s) for s in weights.recipe),
+        recipe_text(weights),
     )

@@ -2,17 +2,10 @@
 
 use crate::convert::{slice, CsrArgs};
 use crate::errors::run;
-use numpy::{IntoPyArray, PyArray1, PyReadonlyArray1};
+use crate::stats::{summary, PermutationSummary};
+use numpy::PyReadonlyArray1;
 use pyo3::prelude::*;
-use vicino_core::stats::global::Permutation;
 use vicino_core::stats::{geary as core_geary, getis, joins, Alternative};
-
-/// (extreme count, p-value, mean, std, z, draws) of a permutation test.
-type PermutationSummary = (usize, f64, f64, f64, f64, Py<PyArray1<f64>>);
-
-fn summary(py: Python<'_>, p: Option<Permutation>) -> Option<PermutationSummary> {
-    p.map(|p| (p.extreme, p.p_value, p.mean, p.std, p.z, p.draws.into_pyarray(py).unbind()))
-}
 
 /// A global statistic, its moments and, with permutations, their summary.
 /// `normality_*` are NaN where the statistic has no moments under normality.

@@ -7,7 +7,12 @@ use pyo3::prelude::*;
 use vicino_core::stats::{global, Alternative};
 
 /// (extreme count, p-value, mean, std, z, draws) of a permutation test.
-type PermutationSummary = (usize, f64, f64, f64, f64, Py<PyArray1<f64>>);
+pub type PermutationSummary = (usize, f64, f64, f64, f64, Py<PyArray1<f64>>);
+
+/// A permutation test's summary for Python (the draws as a NumPy array, no copy).
+pub fn summary(py: Python<'_>, p: Option<global::Permutation>) -> Option<PermutationSummary> {
+    p.map(|p| (p.extreme, p.p_value, p.mean, p.std, p.z, p.draws.into_pyarray(py).unbind()))
+}
 
 /// Global Moran's I, its moments and, with permutations, their summary.
 #[pyclass(frozen, get_all, module = "vicino._core")]
@@ -40,8 +45,6 @@ pub fn moran<'py>(
     let w = w.view(py)?;
     let x = slice(&x)?;
     let m = run(py, |g| global::moran(w, x, permutations, seed, Alternative::parse(alternative)?, g))?;
-    let permutation =
-        m.permutation.map(|p| (p.extreme, p.p_value, p.mean, p.std, p.z, p.draws.into_pyarray(py).unbind()));
     Ok(MoranOut {
         statistic: m.statistic,
         expected: m.expected,
@@ -54,6 +57,6 @@ pub fn moran<'py>(
         normality_z: m.normality.z,
         randomization_variance: m.randomization.variance,
         randomization_z: m.randomization.z,
-        permutation,
+        permutation: summary(py, m.permutation),
     })
 }

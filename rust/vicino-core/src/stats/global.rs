@@ -118,13 +118,14 @@ pub fn permutation_summary(draws: Vec<f64>, observed: f64, centre: f64, alt: Alt
 /// last odd draw. Both must give the same value for the same vector. The
 /// guard is asked for the memory of the draws first and checked between
 /// pairs of draws.
-pub fn permuted<F1, F2>(z: &[f64], draws: usize, seed: u64, guard: &Guard, one: F1, pair: F2) -> Result<Vec<f64>>
+pub fn permuted<T, F1, F2>(z: &[f64], draws: usize, seed: u64, guard: &Guard, one: F1, pair: F2) -> Result<Vec<T>>
 where
-    F1: Fn(&[f64]) -> f64 + Sync,
-    F2: Fn(&[f64], &[f64]) -> (f64, f64) + Sync,
+    T: Send,
+    F1: Fn(&[f64]) -> T + Sync,
+    F2: Fn(&[f64], &[f64]) -> (T, T) + Sync,
 {
     guard.reserve(
-        draws as f64 * 16.0,
+        draws as f64 * 2.0 * std::mem::size_of::<T>() as f64,
         "keeping the permutation draws",
         "use fewer permutations (999 or 9,999 are the usual choices)",
     )?;
@@ -132,7 +133,7 @@ where
         buf.copy_from_slice(z);
         shuffle(&mut stream(seed, r as u64), buf);
     };
-    let pairs: Vec<(f64, Option<f64>)> = (0..draws.div_ceil(2))
+    let pairs: Vec<(T, Option<T>)> = (0..draws.div_ceil(2))
         .into_par_iter()
         .map_init(
             || (z.to_vec(), z.to_vec()),

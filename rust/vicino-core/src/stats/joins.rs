@@ -27,15 +27,13 @@
 //! BW = sum_i d_i x_i / 2 - 2 BB. O(n + nnz/2) per draw, in parallel.
 
 use super::geary::Prepared;
-use super::global::{permutation_summary, Permutation};
+use super::global::{permutation_summary, permuted, Permutation};
 use super::moments::WeightSums;
-use super::permutation::{shuffle, stream};
 use super::Alternative;
 use crate::csr::CsrRef;
 use crate::error::{Error, Result, Units};
 use crate::frame::times_pow2;
 use crate::guard::Guard;
-use rayon::prelude::*;
 
 /// Expectation, variance and z-score of a count under one sampling scheme.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -119,34 +117,18 @@ fn counts(p: &Prepared, y: &[f64], form: f64) -> (f64, f64, f64) {
 
 /// The counts on `draws` permutations: draw r shuffles `y` with stream (seed, r).
 fn permuted_counts(p: &Prepared, y: &[f64], draws: usize, seed: u64, guard: &Guard) -> Result<Vec<(f64, f64, f64)>> {
-    guard.reserve(
-        draws as f64 * 48.0,
-        "keeping the permutation draws",
-        "use fewer permutations (999 or 9,999 are the usual choices)",
-    )?;
     let q = &p.form;
-    let shuffled = |buf: &mut Vec<f64>, r: usize| {
-        buf.copy_from_slice(y);
-        shuffle(&mut stream(seed, r as u64), buf);
-    };
-    let pairs: Vec<Vec<(f64, f64, f64)>> = (0..draws.div_ceil(2))
-        .into_par_iter()
-        .map_init(
-            || (y.to_vec(), y.to_vec()),
-            |(a, b), k| {
-                guard.check()?;
-                shuffled(a, 2 * k);
-                Ok(if 2 * k + 1 < draws {
-                    shuffled(b, 2 * k + 1);
-                    let (u, v) = q.eval_local_pair(a, b);
-                    vec![counts(p, a, u), counts(p, b, v)]
-                } else {
-                    vec![counts(p, a, q.eval_local(a))]
-                })
-            },
-        )
-        .collect::<Result<_>>()?;
-    Ok(pairs.into_iter().flatten().collect())
+    permuted(
+        y,
+        draws,
+        seed,
+        guard,
+        |a| counts(p, a, q.eval_local(a)),
+        |a, b| {
+            let (u, v) = q.eval_local_pair(a, b);
+            (counts(p, a, u), counts(p, b, v))
+        },
+    )
 }
 
 /// Join counts of the 0 / 1 values `x` under weights `w`.

@@ -9,6 +9,8 @@ import nbformat
 import numpy as np
 import pytest
 import scipy.io
+import scipy.sparse
+import scipy.stats
 import shapely
 from nbclient import NotebookClient
 
@@ -83,7 +85,16 @@ def test_end_to_end_islands_are_true(tmp_path_factory):
 def test_end_to_end_morans_i_are_true(tmp_path_factory):
     text, _ = _end_to_end(tmp_path_factory)
     shown = {m[0]: float(m[1]) for m in re.findall(r"^Moran's I under (.+): (\S+)$", text, re.M)}
-    assert list(shown) == ["6 nearest", "within 15 km", "queen", "rook", "queen, repaired"]
+    assert list(shown) == [
+        "6 nearest",
+        "within 15 km",
+        "queen",
+        "rook",
+        "queen, repaired",
+        "inverse distance, 6 nearest",
+        "triangular kernel, adaptive 10",
+        "trade flows",
+    ]
     places = demo.settlements(seed=7)
     shapes = demo.districts(seed=7, places=places)
     share = places["cistern_share"]
@@ -105,6 +116,47 @@ def test_end_to_end_morans_i_are_true(tmp_path_factory):
     w[rows > 0] /= rows[rows > 0, None]
     z = share.to_numpy() - share.mean()
     assert shown["queen"] == pytest.approx(len(z) / w.sum() * (z @ w @ z) / (z @ z), rel=1e-10)
+    # the same formula on the inverse-distance weights written out with numpy: 1/d to the 6 nearest, rows
+    # summing to 1 (reference: Cliff and Ord (1981) as above; distances by brute force)
+    d = brute_euclidean(places[["x", "y"]].to_numpy())
+    np.fill_diagonal(d, np.inf)
+    near = np.argsort(d, axis=1)[:, :6]
+    w = np.zeros_like(d)
+    rows = np.arange(len(d))[:, None]
+    w[rows, near] = 1.0 / d[rows, near]
+    w /= w.sum(axis=1, keepdims=True)
+    assert shown["inverse distance, 6 nearest"] == pytest.approx((z @ w @ z) / (z @ z), rel=1e-10)
+    # the trade network: a scipy coo_array of the flows, duplicate pairs summed (scipy's convention)
+    flows = demo.trade_flows(places, seed=7)
+    pos = {name: i for i, name in enumerate(places.index)}
+    i = flows["origin"].map(pos).to_numpy()
+    j = flows["destination"].map(pos).to_numpy()
+    t = scipy.sparse.coo_array((flows["loads"].to_numpy(), (i, j)), shape=(len(z), len(z))).toarray()
+    t /= t.sum(axis=1, keepdims=True)
+    assert shown["trade flows"] == pytest.approx((z @ t @ z) / (z @ z), rel=1e-10)
+
+
+def test_end_to_end_local_moran_counts_are_true(tmp_path_factory):
+    text, _ = _end_to_end(tmp_path_factory)
+    m = re.search(
+        r"^significant: (\d+) \(high-high (\d+), low-low (\d+), high-low (\d+), low-high (\d+)\)$", text, re.M
+    )
+    assert m, "the notebook prints the local Moran summary"
+    places = demo.settlements(seed=7)
+    shapes = demo.districts(seed=7, places=places)
+    share = places["cistern_share"]
+    queen = vicino.contiguity(shapes, "queen")
+    w = queen.connect_islands(shapes, k=1).connect_components(shapes).standardize("row")
+    local = vicino.local_moran(share, w, permutations=999, seed=7, adjust="none")
+    # reference: scipy.stats.false_discovery_control (Benjamini and Hochberg 1995) on the permutation p-values
+    keep = scipy.stats.false_discovery_control(local.p_permutation) <= 0.05
+    assert int(m[1]) == int(keep.sum())
+    # quadrants from the sign of the centred value and of its lag (Anselin 1995), numpy on the dense matrix
+    z = share.to_numpy() - share.mean()
+    lag = w.to_dense() @ z
+    quadrant = np.where(z > 0, np.where(lag > 0, "high-high", "high-low"), np.where(lag > 0, "low-high", "low-low"))
+    for k, name in enumerate(["high-high", "low-low", "high-low", "low-high"], start=2):
+        assert int(m[k]) == int((keep & (quadrant == name)).sum()), name
 
 
 def test_end_to_end_hands_over_files_that_read_back(tmp_path_factory):

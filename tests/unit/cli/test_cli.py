@@ -258,8 +258,38 @@ def test_moran_without_permutations_has_no_permutation_columns(towns, k5, capsys
     assert "p_randomization" in columns and "p_permutation" not in columns
 
 
+def test_lag_and_moran_read_and_write_parquet_tables(towns, k5, tmp_path, capsys):
+    _, frame = towns
+    table = tmp_path / "values.parquet"
+    frame.sample(frac=1.0, random_state=2).to_parquet(table, index=False)  # rows in another order
+    out = tmp_path / "lags.parquet"
+    code, stdout, err = run(["lag", k5, table, "--columns", "rent", "--id", "code", "--out", out], capsys)
+    assert code == 0 and stdout == "", err
+    got = pd.read_parquet(out).set_index("code")
+    w = mtx(k5)
+    expected = pd.Series(w @ frame["rent"].to_numpy(), index=frame["code"])  # reference: scipy W @ x
+    np.testing.assert_allclose(got["rent_lag"], expected[got.index], rtol=1e-12)
+    out = tmp_path / "moran.parquet"
+    code, _, err = run(
+        ["moran", k5, table, "--column", "rent", "--id", "code", "--permutations", 0, "--out", out], capsys
+    )
+    assert code == 0, err
+    z = frame["rent"].to_numpy() - frame["rent"].mean()
+    dense = w.toarray()
+    # reference: Cliff and Ord (1981), I = (n / S0) z'Wz / z'z
+    assert pd.read_parquet(out)["I"].iloc[0] == pytest.approx(N / dense.sum() * (z @ dense @ z) / (z @ z), rel=1e-12)
+
+
+def test_a_file_that_is_not_parquet_exits_2_naming_it(towns, k5, tmp_path, capsys):
+    bad = tmp_path / "values.parquet"
+    bad.write_text("code,rent\n000,1.0\n")
+    code, out, err = run(["lag", k5, bad, "--columns", "rent", "--id", "code"], capsys)
+    assert code == 2 and out == ""
+    assert "values.parquet" in err and "Parquet" in err and len(err.strip().splitlines()) == 1
+
+
 # ---- convert --------------------------------------------------------------------------------------------------
-@pytest.mark.parametrize("suffix", ["txt", "npz", "csv"])
+@pytest.mark.parametrize("suffix", ["txt", "npz", "csv", "parquet"])
 def test_convert_keeps_the_matrix_and_the_ids(k5, tmp_path, capsys, suffix):
     out = tmp_path / f"k5.{suffix}"
     code, stdout, err = run(["convert", k5, out], capsys)

@@ -85,6 +85,12 @@ def plot_counts(counts: np.ndarray, ax: Any = None) -> Any:
             color=ISLAND,
             fontsize=9,
         )
+    from matplotlib.ticker import MaxNLocator
+
+    # counts are whole numbers: whole ticks, and room beside a lone bar so it reads as one count
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    lo, hi = (float(values.min()), float(values.max())) if len(values) else (0.0, 0.0)
+    ax.set_xlim(lo - max(1.5, 0.05 * (hi - lo)), hi + max(1.5, 0.05 * (hi - lo)))
     ax.set_xlabel("neighbours per unit")
     ax.set_ylabel("units")
     ax.set_title(f"Neighbour counts of {len(counts):,} units", loc="left", fontsize=11)

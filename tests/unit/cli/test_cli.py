@@ -301,10 +301,8 @@ def test_convert_keeps_the_matrix_and_the_ids(k5, tmp_path, capsys, suffix):
     elif suffix == "npz":
         other = sp.load_npz(out)  # reference: scipy.sparse.load_npz
     else:
-        if suffix == "csv":
-            edges = pd.read_csv(out, dtype={"source": str, "target": str})  # reference: pandas
-        else:
-            edges = pd.read_parquet(out)  # reference: pandas with pyarrow
+        # reference: pandas (with pyarrow for Parquet)
+        edges = pd.read_csv(out, dtype={"source": str, "target": str}) if suffix == "csv" else pd.read_parquet(out)
         at = pd.Index(sidecar(k5)).get_indexer
         other = sp.csr_array((edges["weight"], (at(edges["source"]), at(edges["target"]))), shape=m.shape)
     assert abs(m - other).max() == 0

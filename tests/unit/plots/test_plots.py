@@ -123,6 +123,18 @@ def test_plot_counts_without_islands_has_no_island_bar():
     assert not any("island" in t.get_text() for t in ax.texts)
 
 
+def test_plot_counts_of_one_count_has_whole_ticks_and_a_narrow_bar():
+    w = vicino.k_nearest(scattered(), 3)  # every unit has 3 neighbours: one bar
+    ax = w.plot_counts()
+    ax.figure.canvas.draw()
+    ticks = [t for t in ax.get_xticks() if ax.get_xlim()[0] <= t <= ax.get_xlim()[1]]
+    assert ticks and all(float(t).is_integer() for t in ticks)  # common practice: counts are whole numbers
+    (bar,) = ax.patches
+    lo, hi = ax.get_xlim()
+    assert bar.get_width() / (hi - lo) < 0.35  # the bar is one count wide, not the whole axis
+    assert lo < 3 - 1 and hi > 3 + 1
+
+
 def test_plot_counts_draws_on_a_given_axes():
     w = vicino.k_nearest(scattered(), 3)
     fig, (left, right) = plt.subplots(1, 2)

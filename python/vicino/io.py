@@ -49,7 +49,7 @@ import pandas as pd
 
 from . import _gateway as core
 from ._checks import choice
-from ._ids import examples
+from ._ids import examples, positions
 from .errors import FileAccessError, FileFormatError, InvalidInputError, InvalidParameterError, VicinoError
 from .weights import Step, Weights, built, core_matrix, link_facts, unit_facts
 
@@ -405,8 +405,8 @@ def _from_edge_table(
         raise FileFormatError(
             f"{where}: the edge table has no column {', '.join(need)}; it needs source, target, weight"
         )
-    rows = ids.get_indexer(pd.Index(table["source"]))
-    cols = ids.get_indexer(pd.Index(table["target"]))
+    rows = positions(ids, table["source"])
+    cols = positions(ids, table["target"])
     unknown = np.flatnonzero((rows < 0) | (cols < 0))
     if len(unknown):
         e = int(unknown[0])

@@ -350,3 +350,77 @@ def test_writes_replace_an_existing_file_whole(tmp_path):
     b.write(path)
     same(vicino.read(path), b)
     assert sorted(os.listdir(tmp_path)) == ["w.txt", "w.txt.ids.csv"]
+
+
+@pytest.mark.parametrize("symmetric", [False, True])
+def test_every_spelling_of_a_float_reads_as_python_reads_it(tmp_path, symmetric):
+    # Python's float() (correctly rounded) as the oracle: 17 significant digits, the shortest
+    # form, subnormals, exponents near both ends of the range, mixed with comments and CRLF
+    rng = np.random.default_rng(7)
+    bits = rng.integers(1, 0x7FEFFFFFFFFFFFFF, size=3000, dtype=np.int64)
+    uniform = rng.uniform(1e-3, 1, size=3000)  # plain decimals of 17 digits after the point
+    values = np.concatenate([bits.view(np.float64), uniform, [5e-324, 2.2250738585072014e-308, 1.7976931348623157e308]])
+    spellings = [f"{v:.16e}" for v in values] + [repr(float(v)) for v in values] + [f"{v:.17f}" for v in uniform]
+    spellings += ["2.2250738585072011e-308", "9007199254740993", "0.1000000000000000055511151231257827", "1E22", ".5"]
+    n = len(spellings)
+    lines = ["%%MatrixMarket matrix coordinate real " + ("symmetric" if symmetric else "general"), f"{n} {n} {n}"]
+    for k, s in enumerate(spellings):
+        lines.append(f"{k + 1} {k + 1} {s}" + ("\r" if k % 5 == 0 else ""))
+        if k % 97 == 0:
+            lines.append("% a comment among the entries")
+    path = tmp_path / "floats.mtx"
+    path.write_text("\n".join(lines) + "\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)  # no ids file
+        w = vicino.read(path)
+    want = np.array([float(s) for s in spellings])
+    np.testing.assert_array_equal(w.to_scipy().diagonal().view(np.int64), want.view(np.int64))
+    # reference: numpy's own text-to-float conversion agrees with float()
+    np.testing.assert_array_equal(np.array(spellings).astype(np.float64), want)
+
+
+def test_a_symmetric_file_in_either_triangle_reads_as_scipy_reads_it(tmp_path):
+    # reference: scipy.io.mmread mirrors the stored triangle of a symmetric file
+    rng = np.random.default_rng(3)
+    m = sp.random_array((400, 400), density=0.02, rng=rng, format="coo")
+    m = sp.coo_array((m.data + 0.5, (m.row, m.col)), shape=m.shape).tocsr()
+    full = (m + m.T).tocsr()
+    for tri in (sp.tril(full).tocoo(), sp.triu(full).tocoo()):
+        order = np.lexsort((tri.col, tri.row))
+        body = "".join(
+            f"{i + 1} {j + 1} {float(v)!r}\n"
+            for i, j, v in zip(tri.row[order], tri.col[order], tri.data[order], strict=True)
+        )
+        path = tmp_path / "sym.mtx"
+        path.write_text(f"%%MatrixMarket matrix coordinate real symmetric\n400 400 {tri.nnz}\n{body}")
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", UserWarning)
+            w = vicino.read(path)
+        np.testing.assert_array_equal(w.to_dense(), scipy.io.mmread(path).toarray())
+        np.testing.assert_array_equal(w.to_dense(), full.toarray())
+
+
+@pytest.mark.parametrize(
+    "ids",
+    [np.arange(50), np.arange(-7, 43), np.array([0, 0, 2]), np.array([3, 1, 2]), np.array([0, 2, 3]), np.array([5])],
+)
+def test_positions_of_whole_number_ids_match_pandas(ids):
+    from vicino._ids import positions
+
+    index = pd.Index(ids)
+    values = np.array([0, 1, 2, -7, -8, 42, 43, 49, 50, 5, np.iinfo(np.int64).max, np.iinfo(np.int64).min])
+    if index.is_unique:
+        # reference: pandas Index.get_indexer
+        np.testing.assert_array_equal(positions(index, values), index.get_indexer(pd.Index(values)))
+    else:
+        with pytest.raises(pd.errors.InvalidIndexError):
+            positions(index, values)  # like get_indexer: repeated ids have no one position
+
+
+def test_an_edge_table_with_ids_k_to_k_plus_n_reads_back(tmp_path):
+    # reference: scipy.sparse holds the same matrix after the round trip
+    w = random_weights(40, seed=9, symmetric=False, ids="int")
+    shifted = vicino.from_matrix(w.to_scipy(), ids=np.arange(1000, 1040))
+    back = vicino.read(shifted.write(tmp_path / "e.csv"))
+    assert list(back.ids) == list(range(1000, 1040))
+    np.testing.assert_array_equal(back.to_scipy().toarray(), w.to_scipy().toarray())

@@ -144,7 +144,7 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
         ));
     }
     let n = rows as usize;
-    let (indptr, indices, data) = assemble(path, n, &entries, symmetric, guard)?;
+    let (indptr, indices, data) = assemble(path, n, entries, symmetric, guard)?;
     Ok(WeightsFile { graph: Csr::from_parts(n, (indptr, indices, data)), record, symmetric, pattern })
 }
 

@@ -59,7 +59,7 @@ pub fn read(path: &str, guard: &Guard) -> Result<WeightsFile> {
         entries.pop();
     }
     guard.reserve(n as f64 * 24.0, "the units this file names", "check the indices of the file")?;
-    let (indptr, indices, data) = assemble(path, n, &entries, false, guard)?;
+    let (indptr, indices, data) = assemble(path, n, entries, false, guard)?;
     Ok(WeightsFile { graph: Csr::from_parts(n, (indptr, indices, data)), record, symmetric: false, pattern: false })
 }
 

@@ -35,8 +35,8 @@ pub(crate) fn prefetch<T>(x: &[T], j: usize) {
     let _ = (x, j);
 }
 
-/// Rows per block of [`build_rows`].
-const BUILD_BLOCK: usize = 2048;
+/// Rows per block of [`build_rows`] (each block has its own buffers).
+pub const BUILD_BLOCK: usize = 2048;
 
 /// CSR buffers (indptr, indices, data).
 pub type Parts<T> = (Vec<i64>, Vec<i64>, Vec<T>);

@@ -19,7 +19,7 @@
 
 pub mod metric;
 
-use crate::csr::{build_fixed_rows, build_rows, build_visited_rows, Csr};
+use crate::csr::{build_fixed_rows, build_rows, build_visited_rows, Csr, BUILD_BLOCK as ROWS_PER_BLOCK};
 use crate::error::{Error, Result};
 use crate::frame::Frame;
 use crate::guard::Guard;
@@ -442,8 +442,15 @@ fn within_each(p: &Prepared<'_>, radius: impl Fn(usize) -> f64 + Sync, guard: &G
         // and count them as they come, in case the sample was lucky
         let room = (guard.memory_limit() as f64 / LINK_BYTES) as usize;
         let links = AtomicUsize::new(0);
+        // room for a block of rows at about the estimated count, so that the
+        // block buffers rarely grow (each growth copies the block)
+        let per_block = (estimate / n as f64 * 1.25 * ROWS_PER_BLOCK as f64) as usize;
         build_visited_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, s, i, cols, dists| {
             guard.check()?;
+            if cols.capacity() == 0 {
+                cols.reserve(per_block);
+                dists.reserve(per_block);
+            }
             space.within(s, r(i), buf);
             if links.fetch_add(buf.len(), Ordering::Relaxed) + buf.len() > room {
                 return Err(Error::TooLarge {

@@ -175,7 +175,8 @@ def main() -> None:
     plan = [(s, n) for n in args.sizes for s in steps] + [("moran", n) for n in args.moran_sizes]
     plan = [(s, n, o) for s, n in plan if s in args.steps for o in args.orders]
     print(
-        f"{'step':<16}{'n':>10}{'order':>8}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}",
+        f"{'step':<16}{'n':>10}{'order':>8}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}"
+        f"{'vicino MB':>10}",
         flush=True,
     )
     for step, n, order in plan:

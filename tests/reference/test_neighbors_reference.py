@@ -453,7 +453,8 @@ def test_shuffled_and_sorted_points_give_the_same_weights():
     band_ref = sp.csr_array((np.hypot(*(xy[i] - xy[j]).T), (i, j)), shape=(n, n))
     for order in (sorted_order, shuffled_order):
         back = np.argsort(order)  # position in the reordered input of each original point
-        for w, ref in ((vicino.k_nearest(xy[order], k), knn_ref), (vicino.within_distance(xy[order], radius), band_ref)):
+        built = (vicino.k_nearest(xy[order], k), vicino.within_distance(xy[order], radius))
+        for w, ref in zip(built, (knn_ref, band_ref)):
             m = w.to_scipy()
             assert all(np.all(np.diff(m.indices[a:b]) > 0) for a, b in zip(m.indptr[:-1], m.indptr[1:]))  # sorted rows
             d = sp.csr_array((w.to_edges()["distance"].to_numpy(), m.indices, m.indptr), shape=(n, n))

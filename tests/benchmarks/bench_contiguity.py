@@ -16,6 +16,12 @@ every process. Random points almost surely put no four cells at one
 corner, so queen and rook find the same links here; the rook rows measure
 the cost of deciding it.
 
+Order (--orders): "given" keeps the cells in the order GEOS returns them;
+"shuffled" puts them in a seeded random order; "sorted" sorts them in
+strips of about 4 cells' height by the centres of their bounding boxes,
+each strip by x (a spatially sorted input). Comparing shuffled and sorted
+shows how much each route depends on the input order.
+
 Steps, each on the same tessellation for both routes:
 * queen: shapely.STRtree(geoms).query(geoms, predicate="intersects") and a
   scipy.sparse.csr_array of the pairs without self pairs, vs
@@ -63,9 +69,10 @@ CHILD = textwrap.dedent(
     import vicino, vicino.geometry
 
     mode, rule, n, reps, skip = sys.argv[1], sys.argv[2], int(sys.argv[3]), int(sys.argv[4]), sys.argv[5] == "1"
+    order = sys.argv[6]
     seed = 12345
     cache = os.path.join(tempfile.gettempdir(), f"vicino_bench_voronoi_{n}_{seed}.npy")
-    cached_buffers = cache[:-4] + "_buffers.npz"
+    cached_buffers = cache[:-4] + f"_{order}_buffers.npz"
     if mode == "mem2":  # the core alone: load the converted buffers written by the timing process
         with np.load(cached_buffers) as z:
             # the first entry is the buffer kind ("rings" or "wkb"), saved as a 0-d text array
@@ -85,6 +92,12 @@ CHILD = textwrap.dedent(
         tmp = f"{cache}.{os.getpid()}.npy"
         np.save(tmp, shapely.to_wkb(geoms), allow_pickle=True)
         os.replace(tmp, cache)
+    if order == "shuffled":
+        geoms = geoms[np.random.default_rng(seed + 1).permutation(len(geoms))]
+    elif order == "sorted":  # strips of about 4 cells' height, each by x
+        b = shapely.bounds(geoms)
+        cx, cy = (b[:, 0] + b[:, 2]) / 2, (b[:, 1] + b[:, 3]) / 2
+        geoms = geoms[np.lexsort((cx, np.floor(cy * max(np.sqrt(len(geoms)) / 4.0, 1.0))))]
     gs = gpd.GeoSeries(geoms)
     m = len(geoms)
 
@@ -190,9 +203,9 @@ def border_child(mode: str, m: int, reps: int):
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
-def child(mode: str, rule: str, n: int, reps: int, skip: bool):
+def child(mode: str, rule: str, n: int, reps: int, skip: bool, order: str = "given"):
     out = subprocess.run(
-        [sys.executable, "-c", CHILD, mode, rule, str(n), str(reps), "1" if skip else "0"],
+        [sys.executable, "-c", CHILD, mode, rule, str(n), str(reps), "1" if skip else "0", order],
         capture_output=True,
         text=True,
         check=True,
@@ -200,13 +213,13 @@ def child(mode: str, rule: str, n: int, reps: int, skip: bool):
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
-def row(label: str, n: int, tb, tv: float, mb, mv: dict) -> str:
+def row(label: str, n: int, tb, tv: float, mb, mv: dict, order: str = "") -> str:
     if tb is None:
         b, r = f"{'skipped' if mb == 'skipped' else '-':>12}", f"{'-':>8}"
         m = f"{'skipped' if mb == 'skipped' else '-':>9}"
     else:
         b, r, m = f"{tb:>12.4f}", f"{tb / tv:>7.2f}x", f"{mb['peak_mb']:>9.0f}"
-    return f"{label:<16}{n:>10,}{b}{tv:>11.4f}{r}{m}{mv['peak_mb']:>10.0f}"
+    return f"{label:<16}{n:>10,}{order:>9}{b}{tv:>11.4f}{r}{m}{mv['peak_mb']:>10.0f}"
 
 
 def main() -> None:
@@ -228,22 +241,32 @@ def main() -> None:
         metavar="M",
         help="vertices of the shared border of the long-border rows (none to skip them)",
     )
+    ap.add_argument(
+        "--orders",
+        nargs="+",
+        default=["given"],
+        choices=["given", "shuffled", "sorted"],
+        help="cell orders: as GEOS returns them, shuffled, or sorted in space (strips)",
+    )
+    ap.add_argument("--rules", nargs="+", default=["queen", "rook"], choices=["queen", "rook"])
     args = ap.parse_args()
     print(
-        f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}",
+        f"{'step':<16}{'n':>10}{'order':>9}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}"
+        f"{'vicino MB':>10}",
         flush=True,
     )
     for n in args.sizes:
         reps = 1 if n >= 1_000_000 else args.reps
-        for rule in ("queen", "rook"):
-            skip = rule == "rook" and n > args.skip_rook_baseline_above
-            tb, tv, tc, tconv = child("time", rule, n, reps, skip)
-            mb = "skipped" if skip else child("mem0", rule, n, 1, skip)
-            mv, mc = child("mem1", rule, n, 1, skip), child("mem2", rule, n, 1, skip)
-            print(row(rule, n, tb, tv, mb, mv), flush=True)
-            print(row(f"{rule} core", n, tb, tc, mb, mc), flush=True)
-            if rule == "queen":
-                print(row("conversion", n, None, tconv, None, child("mem3", rule, n, 1, skip)), flush=True)
+        for rule in args.rules:
+            for o in args.orders:
+                skip = rule == "rook" and n > args.skip_rook_baseline_above
+                tb, tv, tc, tconv = child("time", rule, n, reps, skip, o)
+                mb = "skipped" if skip else child("mem0", rule, n, 1, skip, o)
+                mv, mc = child("mem1", rule, n, 1, skip, o), child("mem2", rule, n, 1, skip, o)
+                print(row(rule, n, tb, tv, mb, mv, o), flush=True)
+                print(row(f"{rule} core", n, tb, tc, mb, mc, o), flush=True)
+                if rule == "queen":
+                    print(row("conversion", n, None, tconv, None, child("mem3", rule, n, 1, skip, o), o), flush=True)
     for m in args.border_sizes:
         reps = 1 if m >= 1_000_000 else args.reps
         tb, tv = border_child("time", m, reps)

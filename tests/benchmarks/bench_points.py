@@ -8,6 +8,10 @@ peak memory. It never fails: it measures, it does not judge.
 Steps, each on the same data for both routes:
 * k_nearest (k = 8): scipy.spatial.cKDTree(workers=-1) query of k + 1
   neighbours plus building the scipy.sparse.csr_array, vs vicino.k_nearest.
+* within_distance: a radius of sqrt(k / (pi n)) (about k neighbours per
+  unit); cKDTree.query_pairs(r, output_type="ndarray") mirrored into a
+  symmetric binary csr_array with sorted indices, vs vicino.within_distance
+  (which also keeps the distances).
 * inverse dist k16: cKDTree query of 17 neighbours, 1 / d and a csr_array, vs
   vicino.inverse_distance(k=16).
 * adaptive kernel: cKDTree query of k + 1 (the unit itself and its k nearest),
@@ -19,6 +23,10 @@ Steps, each on the same data for both routes:
   the analytic moments).
 * spectral radius: scipy.sparse.linalg.eigsh(k=1) vs Weights.spectral_radius()
   on symmetric distance-band weights (about 8 neighbours per unit).
+Order (--orders): "drawn" keeps the points in the order drawn (uniform
+random, not sorted in space); "sorted" sorts them first in strips of about
+4 points' height, each strip by x (a spatially sorted input, as files often
+are). Comparing the two shows how much each route depends on input order.
 Times: both routes run alternately in one process, best of several runs, so
 both see the same machine. Peak memory: the peak resident set of a fresh
 process that builds the inputs and runs one route once.
@@ -42,6 +50,9 @@ CHILD = textwrap.dedent(
     mode, step, n, k, reps = sys.argv[1], sys.argv[2], int(sys.argv[3]), int(sys.argv[4]), int(sys.argv[5])
     rng = np.random.default_rng(12345)
     pts = rng.random((n, 2))
+    if sys.argv[6] == "sorted":  # strips of about 4 points' height, each by x
+        strips = max(np.sqrt(n) / 4.0, 1.0)
+        pts = pts[np.lexsort((pts[:, 0], np.floor(pts[:, 1] * strips)))]
 
     def scipy_knn():
         _, idx = cKDTree(pts).query(pts, k=k + 1, workers=-1)
@@ -52,6 +63,15 @@ CHILD = textwrap.dedent(
 
     if step == "knn":
         routes = (scipy_knn, lambda: vicino.k_nearest(pts, k))
+    elif step == "within":
+        radius = np.sqrt(k / (np.pi * n))
+        def scipy_within():
+            ij = cKDTree(pts).query_pairs(radius, output_type="ndarray")
+            i, j = np.concatenate([ij[:, 0], ij[:, 1]]), np.concatenate([ij[:, 1], ij[:, 0]])
+            m = sp.csr_array((np.ones(len(i)), (i, j)), shape=(n, n))
+            m.sort_indices()
+            return m
+        routes = (scipy_within, lambda: vicino.within_distance(pts, radius))
     elif step == "idw16":
         def scipy_idw():
             d, idx = cKDTree(pts).query(pts, k=17, workers=-1)
@@ -110,6 +130,9 @@ CHILD = textwrap.dedent(
 
 LABEL = {
     "knn": "k_nearest",
+    "within": "within_distance",
+    "idw16": "inverse dist k16",
+    "kernel": "adaptive kernel",
     "lag": "lag",
     "lag4": "lag 4 columns",
     "moran": "moran 999 perm",
@@ -117,9 +140,12 @@ LABEL = {
 }
 
 
-def child(mode: str, step: str, n: int, k: int, reps: int):
+def child(mode: str, step: str, n: int, k: int, reps: int, order: str):
     out = subprocess.run(
-        [sys.executable, "-c", CHILD, mode, step, str(n), str(k), str(reps)], capture_output=True, text=True, check=True
+        [sys.executable, "-c", CHILD, mode, step, str(n), str(k), str(reps), order],
+        capture_output=True,
+        text=True,
+        check=True,
     )
     return json.loads(out.stdout.strip().splitlines()[-1])
 
@@ -133,24 +159,35 @@ def main() -> None:
     ap.add_argument(
         "--steps",
         nargs="+",
-        default=["knn", "idw16", "kernel", "lag", "lag4", "spectral", "moran"],
+        default=["knn", "within", "idw16", "kernel", "lag", "lag4", "spectral", "moran"],
         help="steps to run",
     )
+    ap.add_argument(
+        "--orders",
+        nargs="+",
+        default=["drawn"],
+        choices=["drawn", "sorted"],
+        help="point orders: as drawn (random), or sorted in space (strips)",
+    )
+    ap.add_argument("--no-memory", action="store_true", help="times only (skip the fresh processes for peak memory)")
     args = ap.parse_args()
-    plan = [(s, n) for n in args.sizes for s in ("knn", "idw16", "kernel", "lag", "lag4", "spectral")] + [
-        ("moran", n) for n in args.moran_sizes
-    ]
-    plan = [(s, n) for s, n in plan if s in args.steps]
+    steps = ("knn", "within", "idw16", "kernel", "lag", "lag4", "spectral")
+    plan = [(s, n) for n in args.sizes for s in steps] + [("moran", n) for n in args.moran_sizes]
+    plan = [(s, n, o) for s, n in plan if s in args.steps for o in args.orders]
     print(
-        f"{'step':<16}{'n':>10}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}{'vicino MB':>10}",
+        f"{'step':<16}{'n':>10}{'order':>8}{'baseline s':>12}{'vicino s':>11}{'ratio':>8}{'base MB':>9}"
+        f"{'vicino MB':>10}",
         flush=True,
     )
-    for step, n in plan:
+    for step, n, order in plan:
         reps = args.reps * 10 if step in ("lag", "lag4") else (1 if step == "moran" and n >= 100_000 else args.reps)
-        tb, tv = child("time", step, n, args.k, reps)
-        mb, mv = child("mem0", step, n, args.k, 1), child("mem1", step, n, args.k, 1)
+        tb, tv = child("time", step, n, args.k, reps, order)
+        if args.no_memory:
+            mb = mv = {"peak_mb": float("nan")}
+        else:
+            mb, mv = child("mem0", step, n, args.k, 1, order), child("mem1", step, n, args.k, 1, order)
         print(
-            f"{LABEL[step]:<16}{n:>10,}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x"
+            f"{LABEL[step]:<16}{n:>10,}{order:>8}{tb:>12.4f}{tv:>11.4f}{tb / tv:>7.2f}x"
             f"{mb['peak_mb']:>9.0f}{mv['peak_mb']:>10.0f}",
             flush=True,
         )

@@ -432,3 +432,39 @@ def test_great_circle_same_place_written_differently_is_a_duplicate():
     with pytest.warns(vicino.DuplicateLocationWarning, match="6 units"):
         r = vicino.within_distance(lonlat, 0.0, metric="great_circle")
     assert r.nnz == 4 * 3 + 2  # common practice: radius 0 links the units at one place
+
+
+# ---------------------------------------------------------------------------
+# input order: the core searches in a space-filling order of its own
+# ---------------------------------------------------------------------------
+def test_shuffled_and_sorted_points_give_the_same_weights():
+    rng = np.random.default_rng(7)
+    n, k = 3000, 8
+    xy = rng.random((n, 2))
+    radius = float(np.sqrt(k / (np.pi * n)))
+    # the same points sorted in strips (each strip by x) and shuffled
+    sorted_order = np.lexsort((xy[:, 0], np.floor(xy[:, 1] * 12)))
+    shuffled_order = rng.permutation(n)
+    tree = cKDTree(xy)
+    dist, idx = tree.query(xy, k=k + 1)  # reference: scipy.spatial.cKDTree
+    knn_ref = sp.csr_array((dist[:, 1:].ravel(), idx[:, 1:].ravel(), np.arange(0, n * k + 1, k)), shape=(n, n))
+    pairs = tree.query_pairs(radius, output_type="ndarray")  # reference: scipy.spatial.cKDTree
+    i, j = np.r_[pairs[:, 0], pairs[:, 1]], np.r_[pairs[:, 1], pairs[:, 0]]
+    band_ref = sp.csr_array((np.hypot(*(xy[i] - xy[j]).T), (i, j)), shape=(n, n))
+    for order in (sorted_order, shuffled_order):
+        back = np.argsort(order)  # position in the reordered input of each original point
+        built = (vicino.k_nearest(xy[order], k), vicino.within_distance(xy[order], radius))
+        for w, ref in zip(built, (knn_ref, band_ref)):
+            m = w.to_scipy()
+            assert all(np.all(np.diff(m.indices[a:b]) > 0) for a, b in zip(m.indptr[:-1], m.indptr[1:]))  # sorted rows
+            d = sp.csr_array((w.to_edges()["distance"].to_numpy(), m.indices, m.indptr), shape=(n, n))
+            relabeled = d[back][:, back]  # back in the original labels
+            assert (relabeled != 0).astype(int).sum() == ref.nnz  # reference: scipy.spatial.cKDTree
+            assert ((relabeled != 0) != (ref != 0)).nnz == 0  # reference: scipy.spatial.cKDTree
+            assert np.allclose(relabeled[ref != 0], ref[ref != 0], rtol=1e-12, atol=0)  # reference: cKDTree distances
+    # the two orders agree with each other exactly, distances bit for bit
+    a, b = (vicino.within_distance(xy[o], radius) for o in (sorted_order, shuffled_order))
+    da = sp.csr_array((a.to_edges()["distance"].to_numpy(), a.to_scipy().indices, a.to_scipy().indptr), shape=(n, n))
+    db = sp.csr_array((b.to_edges()["distance"].to_numpy(), b.to_scipy().indices, b.to_scipy().indptr), shape=(n, n))
+    ia, ib = np.argsort(sorted_order), np.argsort(shuffled_order)
+    assert (da[ia][:, ia] != db[ib][:, ib]).nnz == 0  # reference: the same points (common practice)

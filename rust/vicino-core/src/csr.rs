@@ -35,8 +35,8 @@ pub(crate) fn prefetch<T>(x: &[T], j: usize) {
     let _ = (x, j);
 }
 
-/// Rows per block of [`build_rows`].
-const BUILD_BLOCK: usize = 2048;
+/// Rows per block of [`build_rows`] (each block has its own buffers).
+pub const BUILD_BLOCK: usize = 2048;
 
 /// CSR buffers (indptr, indices, data).
 pub type Parts<T> = (Vec<i64>, Vec<i64>, Vec<T>);
@@ -60,13 +60,32 @@ where
     S: Send,
     F: Fn(&mut S, usize, &mut Vec<i64>, &mut Vec<T>) -> Result<()> + Sync,
 {
+    build_visited_rows(n, visit, parallel, init, |state, _, i, cols, vals| row(state, i, cols, vals))
+}
+
+/// [`build_rows`] whose `row(state, k, i, cols, vals)` also learns `k`, the
+/// place of row i in the visiting order (`visit[k] == i`, or `k == i`
+/// without `visit`), so that a caller whose data are laid out in that
+/// order reads them at `k`.
+pub fn build_visited_rows<T, S, F>(
+    n: usize,
+    visit: Option<&[usize]>,
+    parallel: bool,
+    init: impl Fn() -> S + Sync,
+    row: F,
+) -> Result<Parts<T>>
+where
+    T: Copy + Default + Send + Sync,
+    S: Send,
+    F: Fn(&mut S, usize, usize, &mut Vec<i64>, &mut Vec<T>) -> Result<()> + Sync,
+{
     debug_assert!(visit.is_none_or(|v| v.len() == n));
     let unit = |k: usize| visit.map_or(k, |v| v[k]);
     let block = |state: &mut S, b: usize| -> Result<(Vec<i64>, Vec<T>, Vec<i64>)> {
-        let (mut cols, mut vals, mut lens) = (Vec::new(), Vec::new(), Vec::new());
+        let (mut cols, mut vals, mut lens) = (Vec::new(), Vec::new(), Vec::with_capacity(BUILD_BLOCK));
         for k in b * BUILD_BLOCK..((b + 1) * BUILD_BLOCK).min(n) {
             let before = cols.len();
-            row(state, unit(k), &mut cols, &mut vals)?;
+            row(state, k, unit(k), &mut cols, &mut vals)?;
             debug_assert!(cols[before..].windows(2).all(|p| p[0] < p[1]), "rows must be sorted");
             lens.push((cols.len() - before) as i64);
         }
@@ -140,15 +159,39 @@ where
     Ok((indptr, indices, data))
 }
 
-/// A row and the output slices it fills: (row, (columns, values)).
-type RowSlot<'a, T> = (usize, (&'a mut [i64], &'a mut [T]));
+/// The output buffers of [`build_fixed_rows`], written row by row from
+/// several threads at once.
+struct FixedOut<T> {
+    cols: *mut i64,
+    vals: *mut T,
+}
 
-/// The fixed-width form of [`build_rows`], for rows of exactly `width`
-/// entries (the k nearest neighbours): each row is written straight into
-/// its place in the output, so the output is never held twice. Rows are
-/// produced in the order `visit` (a permutation of the rows), in blocks, in
-/// parallel when `parallel`; `row` must append exactly `width` entries,
-/// sorted by column.
+// SAFETY: the threads write disjoint rows (the visiting order is checked to
+// be a permutation before any write), and the buffers outlive the writes.
+unsafe impl<T: Send> Sync for FixedOut<T> {}
+
+impl<T: Copy> FixedOut<T> {
+    /// Write row i (exactly `width` entries).
+    ///
+    /// # Safety
+    /// Row i must lie inside the buffers, and no other thread may write it.
+    unsafe fn write(&self, i: usize, width: usize, cols: &[i64], vals: &[T]) {
+        debug_assert!(cols.len() == width && vals.len() == width);
+        // SAFETY: by the caller, rows i * width .. (i + 1) * width are ours
+        unsafe {
+            std::ptr::copy_nonoverlapping(cols.as_ptr(), self.cols.add(i * width), width);
+            std::ptr::copy_nonoverlapping(vals.as_ptr(), self.vals.add(i * width), width);
+        }
+    }
+}
+
+/// The fixed-width form of [`build_visited_rows`], for rows of exactly
+/// `width` entries (the k nearest neighbours): each row is written straight
+/// into its place in the output, so the output is never held twice, and no
+/// memory is spent per row beyond the output. Rows are produced in the order
+/// `visit` (a permutation of the rows), in blocks, in parallel when
+/// `parallel`; `row(state, k, i, cols, vals)` must append exactly `width`
+/// entries of row `i = visit[k]`, sorted by column.
 pub fn build_fixed_rows<T, S, F>(
     n: usize,
     width: usize,
@@ -160,45 +203,39 @@ pub fn build_fixed_rows<T, S, F>(
 where
     T: Copy + Default + Send + Sync,
     S: Send,
-    F: Fn(&mut S, usize, &mut Vec<i64>, &mut Vec<T>) -> Result<()> + Sync,
+    F: Fn(&mut S, usize, usize, &mut Vec<i64>, &mut Vec<T>) -> Result<()> + Sync,
 {
-    debug_assert_eq!(visit.len(), n);
+    let mut seen = vec![false; n];
+    if visit.len() != n || visit.iter().any(|&i| i >= n || std::mem::replace(&mut seen[i], true)) {
+        return Err(Error::InvalidMatrix { reason: "the visiting order is not a permutation of the rows".into() });
+    }
+    drop(seen);
     let mut indices = vec![0i64; n * width];
     let mut data = vec![T::default(); n * width];
-    {
-        // one (columns, values) slot per row, handed out in visiting order
-        let mut slots: Vec<Option<(&mut [i64], &mut [T])>> = if width == 0 {
-            (0..n).map(|_| Some((&mut [][..], &mut [][..]))).collect()
-        } else {
-            indices.chunks_exact_mut(width).zip(data.chunks_exact_mut(width)).map(Some).collect()
-        };
-        let mut blocks: Vec<Vec<RowSlot<'_, T>>> = Vec::with_capacity(n.div_ceil(BUILD_BLOCK));
-        for chunk in visit.chunks(BUILD_BLOCK) {
-            blocks.push(chunk.iter().map(|&i| (i, slots[i].take().expect("visit is a permutation"))).collect());
-        }
-        let fill = |state: &mut (S, Vec<i64>, Vec<T>), block: Vec<RowSlot<'_, T>>| -> Result<()> {
-            let (st, cols, vals) = state;
-            for (i, (c, v)) in block {
-                cols.clear();
-                vals.clear();
-                row(st, i, cols, vals)?;
-                if cols.len() != width || vals.len() != width {
-                    return Err(Error::InvalidMatrix {
-                        reason: format!("row {i} has {} entries, not {width}", cols.len()),
-                    });
-                }
-                c.copy_from_slice(cols);
-                v.copy_from_slice(vals);
+    let out = FixedOut { cols: indices.as_mut_ptr(), vals: data.as_mut_ptr() };
+    let fill = |state: &mut (S, Vec<i64>, Vec<T>), (b, chunk): (usize, &[usize])| -> Result<()> {
+        let (st, cols, vals) = state;
+        for (o, &i) in chunk.iter().enumerate() {
+            cols.clear();
+            vals.clear();
+            row(st, b * BUILD_BLOCK + o, i, cols, vals)?;
+            if cols.len() != width || vals.len() != width {
+                return Err(Error::InvalidMatrix {
+                    reason: format!("row {i} has {} entries, not {width}", cols.len()),
+                });
             }
-            Ok(())
-        };
-        let init = || (init(), Vec::with_capacity(width), Vec::with_capacity(width));
-        if parallel {
-            blocks.into_par_iter().map_init(init, fill).collect::<Result<()>>()?;
-        } else {
-            let mut state = init();
-            blocks.into_iter().try_for_each(|b| fill(&mut state, b))?;
+            // SAFETY: `visit` is a permutation of 0..n, so row i < n is
+            // written once, by this thread only
+            unsafe { out.write(i, width, cols, vals) };
         }
+        Ok(())
+    };
+    let init = || (init(), Vec::with_capacity(width), Vec::with_capacity(width));
+    if parallel {
+        visit.par_chunks(BUILD_BLOCK).enumerate().map_init(init, fill).collect::<Result<()>>()?;
+    } else {
+        let mut state = init();
+        visit.chunks(BUILD_BLOCK).enumerate().try_for_each(|c| fill(&mut state, c))?;
     }
     let indptr = (0..=n as i64).map(|i| i * width as i64).collect();
     Ok((indptr, indices, data))
@@ -604,13 +641,31 @@ mod tests {
         let visit: Vec<usize> = (0..n).map(|k| (k * 7919) % n).collect();
         let plain = build_rows(n, None, false, || (), row).unwrap();
         let scrambled = build_rows(n, Some(&visit), true, || (), row).unwrap();
-        let fixed = build_fixed_rows(n, 3, &visit, true, || (), row).unwrap();
+        let fixed = build_fixed_rows(n, 3, &visit, true, || (), |s, _, i, c, v| row(s, i, c, v)).unwrap();
         assert_eq!(plain, scrambled);
         assert_eq!(plain, fixed);
         // by hand: row 0 links 1, 7 and 13
         assert_eq!(&plain.1[..3], &[1, 7, 13]);
-        let short = build_fixed_rows(n, 4, &visit, false, || (), row);
+        let short = build_fixed_rows(n, 4, &visit, false, || (), |s, _, i, c, v| row(s, i, c, v));
         assert!(matches!(short, Err(Error::InvalidMatrix { .. })));
+        // the place in the visiting order comes along with the row
+        let at = build_visited_rows(
+            n,
+            Some(&visit),
+            true,
+            || (),
+            |_, k, i, c, v: &mut Vec<f64>| {
+                assert_eq!(visit[k], i);
+                c.push(k as i64);
+                v.push(i as f64);
+                Ok(())
+            },
+        )
+        .unwrap();
+        assert!(at.1.iter().zip(&at.2).all(|(&k, &i)| visit[k as usize] == i as usize));
+        let twice: Vec<usize> = (0..n).map(|k| k / 2).collect();
+        let bad = build_fixed_rows(n, 3, &twice, true, || (), |s, _, i, c, v| row(s, i, c, v));
+        assert!(matches!(bad, Err(Error::InvalidMatrix { .. })));
     }
 
     #[test]

@@ -253,3 +253,31 @@ fn crossing_boundaries_are_rook_neighbours() {
     assert_eq!(pairs(&run(&b, Rule::Queen)), BTreeSet::from([(0, 1), (1, 0)])); // the boundaries cross at (2, 1) and (1, 2)
     assert_eq!(pairs(&run(&b, Rule::Rook)), BTreeSet::from([(0, 1), (1, 0)])); // documented rule (mod.rs)
 }
+
+#[test]
+fn shuffled_units_give_the_same_links() {
+    // a 30 x 30 lattice with every seventh cell missing, its units in a
+    // scrambled order: rows run in Z-order inside, so the links and lengths
+    // are those of the lattice (common practice) whatever the input order
+    let (rows, cols) = (30, 30);
+    let keep: Vec<bool> = (0..rows * cols).map(|k| k % 7 != 3).collect();
+    let (_, cells) = lattice(rows, cols, &keep, 0.0, 0.0, 1.0);
+    let m = cells.len();
+    let perm: Vec<usize> = (0..m).map(|p| (p * 389 + 11) % m).collect(); // 389 is prime, m = 771 = 3 * 257
+    let mut b = Buffers::new();
+    for &u in &perm {
+        b.square(cells[u].1 as f64, cells[u].0 as f64, 1.0);
+    }
+    for rule in [Rule::Queen, Rule::Rook] {
+        let c = run(&b, rule);
+        let got: BTreeMap<(usize, usize), f64> =
+            links(&c).into_iter().map(|((i, j), l)| ((perm[i], perm[j]), l)).collect();
+        let want = lattice_pairs(&cells, rule);
+        assert_eq!(got.keys().copied().collect::<BTreeSet<_>>(), want, "{rule:?}");
+        // rook neighbours share a whole unit side, queen-only ones a corner
+        for (&(i, j), &l) in &got {
+            let rook = (cells[i].0 - cells[j].0).abs() + (cells[i].1 - cells[j].1).abs() == 1;
+            assert_eq!(l, if rook { 1.0 } else { 0.0 }, "{rule:?} ({i}, {j})");
+        }
+    }
+}

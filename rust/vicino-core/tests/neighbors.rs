@@ -564,3 +564,96 @@ fn within_errors() {
     // a negative zero radius is zero
     assert!(within_distance(&xy, -0.0, Metric::Euclidean, &Guard::unlimited()).is_ok());
 }
+
+// ---------------------------------------------------------------------------
+// input order: the search runs in Z-order inside, so any input order gives
+// the same links and distances, after relabeling
+
+/// The rows of `nb`, found on the points in order `perm` (point p of that
+/// input is point perm[p] of the original), in the original labels.
+fn relabeled(nb: &Neighbors, perm: &[usize]) -> Vec<Vec<(usize, f64)>> {
+    let got = rows(nb);
+    let mut out = vec![Vec::new(); perm.len()];
+    for (p, row) in got.into_iter().enumerate() {
+        let mut row: Vec<(usize, f64)> = row.into_iter().map(|(j, d)| (perm[j], d)).collect();
+        row.sort_by_key(|&(j, _)| j);
+        out[perm[p]] = row;
+    }
+    out
+}
+
+#[test]
+fn shuffled_and_sorted_inputs_give_the_same_links() {
+    let mut rng = SplitMix64(17);
+    // random points with an integer grid (ties) and repeated locations; more
+    // than a block of rows, so the parallel route runs
+    let mut xy = random_points(&mut rng, 3000, 0.0, 60.0);
+    xy.extend(grid(40, 40).iter().map(|v| v * 1.5));
+    for i in 0..300 {
+        let j = rng.below(xy.len() / 2);
+        xy.extend([xy[2 * j], xy[2 * j + 1] + if i % 2 == 0 { 0.0 } else { -0.0 }]);
+    }
+    let n = xy.len() / 2;
+    let mut perm: Vec<usize> = (0..n).collect();
+    for i in (1..n).rev() {
+        perm.swap(i, rng.below(i + 1));
+    }
+    // the same points in strips sorted by x, and shuffled
+    let mut sorted: Vec<usize> = (0..n).collect();
+    sorted.sort_by(|&a, &b| {
+        let (pa, pb) = (pt(&xy, a), pt(&xy, b));
+        ((pa[1] / 4.0) as i64).cmp(&((pb[1] / 4.0) as i64)).then(pa[0].total_cmp(&pb[0])).then(a.cmp(&b))
+    });
+    let take = |perm: &[usize]| -> Vec<f64> { perm.iter().flat_map(|&i| pt(&xy, i)).collect() };
+    let g = Guard::unlimited();
+    for k in [1usize, 8, 9] {
+        for order in [&perm, &sorted] {
+            // ties fall to the lower position of the input given, so the
+            // oracle is brute force on that input
+            let input = take(order);
+            let nb = k_nearest(&input, k, Metric::Euclidean, &g).unwrap();
+            assert_same(&rows(&nb), &brute_knn(&input, k, Metric::Euclidean), 0.0, &format!("k = {k}, reordered"));
+        }
+    }
+    // without ties, the same links and distances (bit for bit) after relabeling
+    let plain = &xy[..6000];
+    let (p2, s2): (Vec<usize>, Vec<usize>) =
+        (perm.iter().copied().filter(|&i| i < 3000).collect(), sorted.iter().copied().filter(|&i| i < 3000).collect());
+    let take2 = |perm: &[usize]| -> Vec<f64> { perm.iter().flat_map(|&i| pt(plain, i)).collect() };
+    let want = brute_knn(plain, 8, Metric::Euclidean);
+    for order in [&p2, &s2] {
+        let nb = k_nearest(&take2(order), 8, Metric::Euclidean, &g).unwrap();
+        assert_same(&relabeled(&nb, order), &want, 0.0, "k = 8, reordered, no ties");
+    }
+    let want = brute_within(&xy, 1.5, Metric::Euclidean);
+    for order in [&perm, &sorted] {
+        let nb = within_distance(&take(order), 1.5, Metric::Euclidean, &g).unwrap();
+        assert_same(&relabeled(&nb, order), &want, 0.0, "within 1.5, reordered");
+    }
+}
+
+#[test]
+fn results_do_not_depend_on_the_thread_count() {
+    let mut rng = SplitMix64(23);
+    let mut xy = random_points(&mut rng, 6000, -10.0, 10.0);
+    xy.extend(grid(30, 30));
+    let g = Guard::unlimited();
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap().install(|| {
+            let knn = k_nearest(&xy, 8, Metric::Euclidean, &g).unwrap();
+            let band = within_distance(&xy, 0.4, Metric::Euclidean, &g).unwrap();
+            let lonlat: Vec<f64> = xy.chunks(2).flat_map(|p| [p[0] * 5.0, p[1] * 3.0]).collect();
+            let gc = k_nearest(&lonlat, 5, Metric::GreatCircle, &g).unwrap();
+            (knn.graph, band.graph, gc.graph)
+        })
+    };
+    let one = run(1);
+    assert_eq!(one, run(3));
+    // and the single-threaded run agrees with brute force (the oracle)
+    assert_same(
+        &rows(&Neighbors { graph: one.0, duplicate_units: 0 }),
+        &brute_knn(&xy, 8, Metric::Euclidean),
+        0.0,
+        "knn",
+    );
+}

@@ -8,7 +8,8 @@
 //! (the tolerance is scaled with them). Candidate pairs are the units whose
 //! bounding boxes, widened by the tolerance, overlap ([`candidates`]: a
 //! uniform grid sized by the number of units, or an R-tree when a grid
-//! would be poor; in parallel with `rayon`). For each candidate pair every
+//! would be poor; in parallel with `rayon`, rows visited in the Z-order of
+//! the box centres so that the cost does not depend on the input order). For each candidate pair every
 //! boundary segment of one unit that reaches the other's box is tested
 //! against those of the other that reach its box ([`contact`], through a
 //! per-pair sweep of the segments when there are many, so a long shared
@@ -52,7 +53,7 @@ use crate::error::{Error, Link, Pair, Result, Unit};
 use crate::frame::{times_pow2, Frame};
 use crate::guard::Guard;
 use crate::neighbors::metric::{haversine_km, Metric};
-use crate::neighbors::LINK_BYTES;
+use crate::neighbors::{z_order, LINK_BYTES};
 use candidates::Candidates;
 use contact::{coincident_interval, inside_length, meet_exact, near, seg_box, union_length, Fill, Meet, Seg, SegIndex};
 use geometry::BBox;
@@ -279,12 +280,18 @@ fn contiguity_in(p: &Polygons<'_>, rule: Rule, tolerance: f64, lengths: Metric, 
     let empty: Vec<usize> = (0..n).filter(|&u| boxes[u].is_none()).collect();
     let wide: Vec<Option<BBox>> = boxes.iter().map(|b| b.map(|b| widen(b, tolerance))).collect();
     let index = Candidates::new(&wide);
+    // rows visited in the Z-order of the box centres, so that consecutive
+    // rows meet the same units (in cache) whatever the order of the input
+    let centres: Vec<[f64; 2]> =
+        boxes.iter().map(|b| b.map_or([f64::NAN; 2], |b| [0.5 * (b[0] + b[2]), 0.5 * (b[1] + b[3])])).collect();
+    let visit = z_order(&centres);
+    drop(centres);
     // the upper triangle, row by row, then mirrored
     let room = (guard.memory_limit() as f64 / (2.0 * LINK_BYTES)) as usize;
     let links = AtomicUsize::new(0);
     let upper = build_rows(
         n,
-        None,
+        Some(&visit),
         n >= 256,
         || (Scratch::default(), Vec::new()),
         |(scratch, js): &mut (Scratch, Vec<usize>), i, cols, lens| {

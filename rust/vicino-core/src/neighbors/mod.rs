@@ -13,11 +13,13 @@
 //!
 //! Duplicate locations are handled: copies are at distance 0 of each other,
 //! so they are each other's nearest neighbours, ordered by position. Queries
-//! run in the Z-order of the locations (see `Layout`), for cache locality.
+//! run in the Z-order of the locations (see `Layout`), on a copy of the
+//! points in that order, so that memory is read in order whatever the order
+//! of the input; each row is written to its own place at the end.
 
 pub mod metric;
 
-use crate::csr::{build_fixed_rows, build_rows, Csr};
+use crate::csr::{build_fixed_rows, build_rows, build_visited_rows, Csr, BUILD_BLOCK as ROWS_PER_BLOCK};
 use crate::error::{Error, Result};
 use crate::frame::Frame;
 use crate::guard::Guard;
@@ -39,21 +41,27 @@ pub struct Neighbors {
 /// a point that the exact metric keeps.
 const SLACK: f64 = 1e-9;
 
-/// The search space: the tree, the points in tree coordinates, and the
-/// original coordinates for exact distances.
+/// The search space: the tree over the points in one order (the tree's
+/// items), the points in that order for exact distances, and the position
+/// of each item in the caller's numbering. Laid out in Z-order, a query and
+/// the points it finds sit close together in memory, whatever the order of
+/// the input.
 struct Space<'a, const D: usize> {
     tree: ImmutableKdTree<f64, D>,
-    pts: Vec<[f64; D]>,
     xy: &'a [[f64; 2]],
+    label: &'a [usize],
     metric: Metric,
+    to_tree: fn([f64; 2]) -> [f64; D],
 }
 
 impl<'a, const D: usize> Space<'a, D> {
-    fn new(xy: &'a [[f64; 2]], metric: Metric, to_tree: impl Fn([f64; 2]) -> [f64; D] + Sync) -> Self {
+    /// The space of points `xy` (item s at `xy[s]`, position `label[s]`).
+    fn new(xy: &'a [[f64; 2]], label: &'a [usize], metric: Metric, to_tree: fn([f64; 2]) -> [f64; D]) -> Self {
+        debug_assert_eq!(xy.len(), label.len());
         let pts: Vec<[f64; D]> = xy.par_iter().map(|&p| to_tree(p)).collect();
         let tree =
             ImmutableKdTree::<f64, D>::new_from_slice_parallel(&pts).expect("finite coordinates always build a tree");
-        Self { tree, pts, xy, metric }
+        Self { tree, xy, label, metric, to_tree }
     }
 
     /// Squared tree radius that surely holds every point within `d` (public metric).
@@ -66,26 +74,26 @@ impl<'a, const D: usize> Space<'a, D> {
         r * r
     }
 
-    /// All points within `d` of point i in the public metric, self excluded,
+    /// All points within `d` of item s in the public metric, s excluded,
     /// as (distance, position), unsorted.
-    fn within(&self, i: usize, d: f64, out: &mut Vec<(f64, usize)>) {
-        self.within_at(&self.pts[i], self.xy[i], i, d, out)
+    fn within(&self, s: usize, d: f64, out: &mut Vec<(f64, usize)>) {
+        self.within_at(&(self.to_tree)(self.xy[s]), self.xy[s], s, d, out)
     }
 
     /// All points within `d` of a query point (`q` in tree coordinates,
-    /// `qxy` as given), the point at position `skip` excluded.
+    /// `qxy` as given), the item `skip` excluded; streamed from the tree,
+    /// so nothing is allocated per query.
     fn within_at(&self, q: &[f64; D], qxy: [f64; 2], skip: usize, d: f64, out: &mut Vec<(f64, usize)>) {
         out.clear();
-        let found = self.tree.query(q).within::<SquaredEuclidean<f64>>(self.tree_radius_sq(d)).unsorted().execute();
-        for r in found {
+        self.tree.query(q).within::<SquaredEuclidean<f64>>(self.tree_radius_sq(d)).unsorted().visit(|r| {
             let j = r.item as usize;
             if j != skip {
                 let dj = self.metric.distance(qxy, self.xy[j]);
                 if dj <= d {
-                    out.push((dj, j));
+                    out.push((dj, self.label[j]));
                 }
             }
-        }
+        });
     }
 
     /// Whether two sorted distances are far enough apart that the tree's
@@ -97,14 +105,13 @@ impl<'a, const D: usize> Space<'a, D> {
         }
     }
 
-    /// The k nearest of point i, self excluded, sorted by (distance, position).
-    fn k_nearest(&self, i: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
-        self.k_nearest_at(&self.pts[i], self.xy[i], i, k, buf)
+    /// The k nearest of item s, s excluded, sorted by (distance, position).
+    fn k_nearest(&self, s: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
+        self.k_nearest_at(&(self.to_tree)(self.xy[s]), self.xy[s], s, k, buf)
     }
 
-    /// The k nearest of a query point, the point at position `skip` (if
-    /// any) excluded, sorted by (distance, position); fewer when the space
-    /// holds fewer.
+    /// The k nearest of a query point, the item `skip` (if any) excluded,
+    /// sorted by (distance, position); fewer when the space holds fewer.
     fn k_nearest_at(&self, q: &[f64; D], qxy: [f64; 2], skip: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
         let n = self.xy.len();
         let available = n - (skip < n) as usize;
@@ -113,11 +120,16 @@ impl<'a, const D: usize> Space<'a, D> {
         if m == 0 || k == 0 {
             return;
         }
-        let found =
-            self.tree.query(q).nearest_n::<SquaredEuclidean<f64>>(NonZeroUsize::new(m).expect("m >= 1")).execute();
+        // unsorted: the pairs are sorted here, by the public metric
+        let found = self
+            .tree
+            .query(q)
+            .nearest_n::<SquaredEuclidean<f64>>(NonZeroUsize::new(m).expect("m >= 1"))
+            .unsorted()
+            .execute();
         buf.extend(found.iter().filter(|r| r.item as usize != skip).map(|r| {
             let j = r.item as usize;
-            (self.metric.distance(qxy, self.xy[j]), j)
+            (self.metric.distance(qxy, self.xy[j]), self.label[j])
         }));
         sort_pairs(buf);
         let k = k.min(available);
@@ -152,16 +164,48 @@ fn spread(v: u32) -> u64 {
     (x | x << 1) & 0x5555_5555_5555_5555
 }
 
+/// The Z-order (Morton) key of every point, 32 bits per axis over the
+/// extent of the points, with the point's position: (key, position).
+/// NaN coordinates count as the low edge.
+fn z_keys(xy: &[[f64; 2]]) -> Vec<(u64, usize)> {
+    let (lo, hi) = xy.iter().fold(([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]), |(lo, hi), p| {
+        ([lo[0].min(p[0]), lo[1].min(p[1])], [hi[0].max(p[0]), hi[1].max(p[1])])
+    });
+    let quantize = |v: f64, a: usize| {
+        let range = hi[a] - lo[a];
+        if range > 0.0 {
+            ((v - lo[a]) / range * u32::MAX as f64) as u32
+        } else {
+            0
+        }
+    };
+    xy.par_iter().enumerate().map(|(i, &p)| (spread(quantize(p[0], 0)) | spread(quantize(p[1], 1)) << 1, i)).collect()
+}
+
+/// The positions of the points in Z-order (ties by position): a space-filling
+/// order in which to visit units, so that consecutive units are near each
+/// other in space and their data near each other in cache, whatever the
+/// order of the input.
+pub(crate) fn z_order(xy: &[[f64; 2]]) -> Vec<usize> {
+    let mut keys = z_keys(xy);
+    keys.par_sort_unstable();
+    keys.into_par_iter().map(|k| k.1).collect()
+}
+
 /// The units in Z-order (Morton order) of their locations, which serves
 /// twice: queries run in this order, so consecutive queries visit the same
 /// part of the tree (several times faster than random order on large
 /// inputs), and units at identical locations are adjacent in it, which
 /// finds the groups of duplicates. Ties in the order go by exact
-/// coordinates, then by position.
+/// coordinates, then by position. The locations are copied in that order
+/// (`xy`), so that the search reads memory in order too.
 struct Layout {
+    /// the position of the unit at each place of the order
     order: Vec<usize>,
-    /// start and end in `order` of the group of identical locations of each
-    /// unit; (0, 0) for a unit alone at its location
+    /// the unit's location at each place of the order
+    xy: Vec<[f64; 2]>,
+    /// start and end in `order` of the group of identical locations of the
+    /// unit at each place; empty when no two units share a location
     group: Vec<(usize, usize)>,
     duplicate_units: usize,
 }
@@ -169,50 +213,53 @@ struct Layout {
 impl Layout {
     fn new(xy: &[[f64; 2]]) -> Self {
         let n = xy.len();
-        let (lo, hi) = xy.iter().fold(([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]), |(lo, hi), p| {
-            ([lo[0].min(p[0]), lo[1].min(p[1])], [hi[0].max(p[0]), hi[1].max(p[1])])
-        });
-        let quantize = |v: f64, a: usize| {
-            let range = hi[a] - lo[a];
-            if range > 0.0 {
-                ((v - lo[a]) / range * u32::MAX as f64) as u32
-            } else {
-                0
-            }
-        };
         // -0.0 and 0.0 are the same place
-        let place = |p: [f64; 2]| ((p[0] + 0.0).to_bits(), (p[1] + 0.0).to_bits());
-        let mut keys: Vec<(u64, (u64, u64), usize)> = xy
-            .par_iter()
-            .enumerate()
-            .map(|(i, &p)| (spread(quantize(p[0], 0)) | spread(quantize(p[1], 1)) << 1, place(p), i))
-            .collect();
+        let place = |i: usize| ((xy[i][0] + 0.0).to_bits(), (xy[i][1] + 0.0).to_bits());
+        let mut keys = z_keys(xy);
         keys.par_sort_unstable();
-        let mut group = vec![(0, 0); n];
+        // equal keys (rare: 32 bits per axis) are put in (place, position) order
+        let mut a = 0;
+        while a < n {
+            let mut b = a + 1;
+            while b < n && keys[b].0 == keys[a].0 {
+                b += 1;
+            }
+            if b - a > 1 {
+                keys[a..b].sort_unstable_by_key(|&(_, i)| (place(i), i));
+            }
+            a = b;
+        }
+        let order: Vec<usize> = keys.into_par_iter().map(|k| k.1).collect();
+        let sorted: Vec<[f64; 2]> = order.par_iter().map(|&i| xy[i]).collect();
+        // identical locations are adjacent and have equal keys
+        let same = |s: usize, t: usize| place(order[s]) == place(order[t]);
+        let mut group = Vec::new();
         let mut duplicate_units = 0;
         let mut a = 0;
         while a < n {
             let mut b = a + 1;
-            while b < n && keys[b].1 == keys[a].1 {
+            while b < n && same(a, b) {
                 b += 1;
             }
             if b - a > 1 {
-                duplicate_units += b - a;
-                for key in &keys[a..b] {
-                    group[key.2] = (a, b);
+                if group.is_empty() {
+                    group = vec![(0, 0); n];
                 }
+                duplicate_units += b - a;
+                group[a..b].fill((a, b));
             }
             a = b;
         }
-        let order = keys.into_iter().map(|k| k.2).collect();
-        Self { order, group, duplicate_units }
+        Self { order, xy: sorted, group, duplicate_units }
     }
 
-    /// Positions sharing unit i's location (i included, sorted by position),
-    /// or an empty slice.
-    fn same_place(&self, i: usize) -> &[usize] {
-        let (a, b) = self.group[i];
-        &self.order[a..b]
+    /// Positions sharing the location of the unit at place s of the order
+    /// (itself included, sorted by position), or an empty slice.
+    fn same_place(&self, s: usize) -> &[usize] {
+        match self.group.get(s) {
+            Some(&(a, b)) => &self.order[a..b],
+            None => &[],
+        }
     }
 }
 
@@ -248,27 +295,27 @@ pub fn prepare(xy: &[f64], metric: Metric) -> Result<Prepared<'_>> {
     Ok(Prepared { xy, frame, metric })
 }
 
-/// Build the search space for prepared points and hand it to `f`.
-fn with_space<R>(p: &Prepared<'_>, f: impl FnOnce(&dyn SpaceQuery) -> R) -> R {
-    let pairs = as_pairs(&p.xy);
+/// Build the search space over the points in the order of `layout` and
+/// hand it to `f`; items are places in that order.
+fn with_space<R>(p: &Prepared<'_>, layout: &Layout, f: impl FnOnce(&dyn SpaceQuery) -> R) -> R {
     match p.metric {
-        Metric::Euclidean => f(&Space::<2>::new(pairs, p.metric, |q| q)),
-        Metric::GreatCircle => f(&Space::<3>::new(pairs, p.metric, metric::unit_vector)),
+        Metric::Euclidean => f(&Space::<2>::new(&layout.xy, &layout.order, p.metric, |q| q)),
+        Metric::GreatCircle => f(&Space::<3>::new(&layout.xy, &layout.order, p.metric, metric::unit_vector)),
     }
 }
 
 /// Object-safe face of [`Space`] for either dimension.
 trait SpaceQuery: Sync {
-    fn k_nearest(&self, i: usize, k: usize, buf: &mut Vec<(f64, usize)>);
-    fn within(&self, i: usize, d: f64, buf: &mut Vec<(f64, usize)>);
+    fn k_nearest(&self, s: usize, k: usize, buf: &mut Vec<(f64, usize)>);
+    fn within(&self, s: usize, d: f64, buf: &mut Vec<(f64, usize)>);
 }
 
 impl<const D: usize> SpaceQuery for Space<'_, D> {
-    fn k_nearest(&self, i: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
-        Space::k_nearest(self, i, k, buf)
+    fn k_nearest(&self, s: usize, k: usize, buf: &mut Vec<(f64, usize)>) {
+        Space::k_nearest(self, s, k, buf)
     }
-    fn within(&self, i: usize, d: f64, buf: &mut Vec<(f64, usize)>) {
-        Space::within(self, i, d, buf)
+    fn within(&self, s: usize, d: f64, buf: &mut Vec<(f64, usize)>) {
+        Space::within(self, s, d, buf)
     }
 }
 
@@ -314,16 +361,16 @@ pub fn k_nearest(xy: &[f64], k: usize, metric: Metric, guard: &Guard) -> Result<
     }
     guard.reserve(n as f64 * k as f64 * LINK_BYTES, "the k nearest neighbours of every unit", "use a smaller k")?;
     let layout = Layout::new(as_pairs(&p.xy));
-    let parts = with_space(&p, |space| {
-        build_fixed_rows(n, k, &layout.order, n >= 512, Vec::new, |buf, i, cols, dists| {
+    let parts = with_space(&p, &layout, |space| {
+        build_fixed_rows(n, k, &layout.order, n >= 512, Vec::new, |buf, s, i, cols, dists| {
             guard.check()?;
-            let same = layout.same_place(i);
+            let same = layout.same_place(s);
             if same.len() > k {
                 // k copies at distance 0: the lowest positions other than i
                 buf.clear();
                 buf.extend(same.iter().filter(|&&j| j != i).take(k).map(|&j| (0.0, j)));
             } else {
-                space.k_nearest(i, k, buf);
+                space.k_nearest(s, k, buf);
             }
             push_row(buf, cols, dists);
             Ok(())
@@ -379,14 +426,14 @@ fn within_each(p: &Prepared<'_>, radius: impl Fn(usize) -> f64 + Sync, guard: &G
     let layout = Layout::new(as_pairs(&p.xy));
     const ADVICE: &str = "use a smaller radius, or k_nearest for a fixed number of neighbours";
     const WHAT: &str = "the links within the radius";
-    let parts = with_space(p, |space| {
+    let parts = with_space(p, &layout, |space| {
         // estimate the links from units spread over the map (every s-th in Z-order)
         let step = n.div_ceil(256).max(1);
-        let sample: Vec<usize> = layout.order.iter().step_by(step).copied().collect();
+        let sample: Vec<usize> = (0..n).step_by(step).collect();
         let found: usize = sample
             .par_iter()
-            .map_init(Vec::new, |buf, &i| {
-                space.within(i, r(i), buf);
+            .map_init(Vec::new, |buf, &s| {
+                space.within(s, r(layout.order[s]), buf);
                 buf.len()
             })
             .sum();
@@ -395,9 +442,16 @@ fn within_each(p: &Prepared<'_>, radius: impl Fn(usize) -> f64 + Sync, guard: &G
         // and count them as they come, in case the sample was lucky
         let room = (guard.memory_limit() as f64 / LINK_BYTES) as usize;
         let links = AtomicUsize::new(0);
-        build_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, i, cols, dists| {
+        // room for a block of rows at about the estimated count, so that the
+        // block buffers rarely grow (each growth copies the block)
+        let per_block = (estimate / n as f64 * 1.25 * ROWS_PER_BLOCK as f64) as usize;
+        build_visited_rows(n, Some(&layout.order), n >= 512, Vec::new, |buf, s, i, cols, dists| {
             guard.check()?;
-            space.within(i, r(i), buf);
+            if cols.capacity() == 0 {
+                cols.reserve(per_block);
+                dists.reserve(per_block);
+            }
+            space.within(s, r(i), buf);
             if links.fetch_add(buf.len(), Ordering::Relaxed) + buf.len() > room {
                 return Err(Error::TooLarge {
                     what: WHAT,
@@ -480,7 +534,6 @@ pub fn nearest_among(
         queries: &[usize],
         k: usize,
         guard: &Guard,
-        to_tree: impl Fn([f64; 2]) -> [f64; D] + Sync,
     ) -> Result<Vec<Vec<(f64, usize)>>> {
         let all = as_pairs(&p.xy);
         queries
@@ -490,21 +543,15 @@ pub fn nearest_among(
                 guard.check()?;
                 // the query's own slot among the targets, if it is one
                 let skip = targets.binary_search(&q).unwrap_or(usize::MAX);
-                space.k_nearest_at(&to_tree(all[q]), all[q], skip, k, buf);
-                Ok(buf.iter().map(|&(d, j)| (p.frame.to_world(d), targets[j])).collect())
+                space.k_nearest_at(&(space.to_tree)(all[q]), all[q], skip, k, buf);
+                Ok(buf.iter().map(|&(d, j)| (p.frame.to_world(d), j)).collect())
             })
             .collect()
     }
     match p.metric {
-        Metric::Euclidean => run(&Space::<2>::new(&sub, p.metric, |q| q), p, targets, queries, k, guard, |q| q),
-        Metric::GreatCircle => run(
-            &Space::<3>::new(&sub, p.metric, metric::unit_vector),
-            p,
-            targets,
-            queries,
-            k,
-            guard,
-            metric::unit_vector,
-        ),
+        Metric::Euclidean => run(&Space::<2>::new(&sub, targets, p.metric, |q| q), p, targets, queries, k, guard),
+        Metric::GreatCircle => {
+            run(&Space::<3>::new(&sub, targets, p.metric, metric::unit_vector), p, targets, queries, k, guard)
+        }
     }
 }

@@ -346,7 +346,11 @@ mod tests {
         // from memory: the path of n units has eigenvalues 2 cos(pi k / (n + 1)), k = 1..n
         let n = 3000;
         let path = Csr::from_rows(
-            (0..n).map(|i| [i.checked_sub(1), (i + 1 < n).then_some(i + 1)].into_iter().flatten().map(|j| (j, 1.0)).collect()).collect(),
+            (0..n)
+                .map(|i| {
+                    [i.checked_sub(1), (i + 1 < n).then_some(i + 1)].into_iter().flatten().map(|j| (j, 1.0)).collect()
+                })
+                .collect(),
         );
         let want = 2.0 * (std::f64::consts::PI / (n + 1) as f64).cos();
         let (r, _) = plain(path.view(), true, 1e-10, &Guard::unlimited()).unwrap();

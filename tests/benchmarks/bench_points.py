@@ -110,6 +110,8 @@ CHILD = textwrap.dedent(
 
 LABEL = {
     "knn": "k_nearest",
+    "idw16": "inverse dist k16",
+    "kernel": "adaptive kernel",
     "lag": "lag",
     "lag4": "lag 4 columns",
     "moran": "moran 999 perm",

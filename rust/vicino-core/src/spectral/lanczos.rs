@@ -344,7 +344,7 @@ mod tests {
     #[test]
     fn plain_lanczos_matches_the_path_formula() {
         // from memory: the path of n units has eigenvalues 2 cos(pi k / (n + 1)), k = 1..n
-        let n = 3000;
+        let n: usize = 3000;
         let path = Csr::from_rows(
             (0..n)
                 .map(|i| {

@@ -58,7 +58,7 @@ class EigenvalueBounds:
         closed forms (constant row sums, a directed cycle) rounding only.
     min_method, max_method : str
         How each was found: ``"dense QR"``, ``"constant sums"``,
-        ``"directed cycle (closed form)"``, ``"thick-restart Lanczos"``,
+        ``"directed cycle (closed form)"``, ``"Lanczos"``, ``"thick-restart Lanczos"``,
         ``"implicitly restarted Arnoldi"``, ``"shifted power iteration"`` or
         ``"strongly connected blocks"``.
     tol : float

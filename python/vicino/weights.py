@@ -399,13 +399,17 @@ class Weights:
         QR). Constant row sums give lambda_max = the row sum exactly. Larger
         symmetric weights, and weights similar to symmetric ones by a
         diagonal scaling (row-standardized symmetric weights: D^-1 A is
-        similar to D^-1/2 A D^-1/2), use thick-restart Lanczos with full
-        reorthogonalization (Wu and Simon 2000); other weights are split into
-        strongly connected blocks (a directed cycle has a closed form), and
-        each large block uses implicitly restarted Arnoldi (Lehoucq and
-        Sorensen 1996) for its smallest real eigenvalue and the spectral
-        radius for its largest. Units without links add the eigenvalue 0.
-        The memory is about 43 vectors of length n (350 MB at 10^6 units).
+        similar to D^-1/2 A D^-1/2), use plain Lanczos (Paige 1980) with the
+        Ritz vectors formed in a second pass and checked explicitly, and
+        thick-restart Lanczos with full reorthogonalization (Wu and Simon
+        2000) when that check fails; other weights are split into strongly
+        connected blocks (a directed cycle has a closed form), and each large
+        block uses implicitly restarted Arnoldi (Lehoucq and Sorensen 1996)
+        for its smallest real eigenvalue and the spectral radius for its
+        largest; a block of at most 1,000 units on which Arnoldi does not
+        settle is solved densely. Units without links add the eigenvalue 0.
+        The memory is about 43 vectors of length n (350 MB at 10^6 units)
+        for the restarted methods, six for plain Lanczos.
 
         Raises
         ------

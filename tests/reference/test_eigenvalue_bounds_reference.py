@@ -162,7 +162,7 @@ def test_large_binary_queen_lattice_uses_lanczos_for_both_ends():
     rows, cols = 100, 110
     a = lattice(rows, cols, queen=True)
     b = vicino.from_matrix(a).eigenvalue_bounds(tol=1e-10)
-    assert b.min_method == b.max_method == "thick-restart Lanczos"
+    assert b.min_method == b.max_method == "Lanczos"
     # from memory: queen = (P_r + I) kron (P_c + I) - I, so its eigenvalues are
     # (1 + 2 cos(pi i / (r + 1))) (1 + 2 cos(pi j / (c + 1))) - 1
     u = 1 + 2 * np.cos(np.pi * np.arange(1, rows + 1) / (rows + 1))
@@ -224,18 +224,53 @@ def test_row_standardized_interval_upper_end_is_one():
     assert sorted(ref.real) == pytest.approx([-1.0, 1.0], abs=1e-9)  # reference: scipy.sparse.linalg.eigs
 
 
-def test_no_real_eigenvalue_in_reach_is_a_clear_convergence_error():
-    # C3 kron (path + 2 I): eigenvalues omega^k mu_j, mu_j in (0, 4); the leftmost are complex
-    # (real part -mu/2), the smallest real one (min mu_j > 0) lies deep inside the spectrum
-    m = 250
+def c3_kron_path(m):
+    """C3 kron (path + 2 I): eigenvalues omega^k mu_j, mu_j in (0, 4); the leftmost are complex
+    (real part -mu/2), the smallest real one (min mu_j > 0) lies deep inside the spectrum."""
     path = sp.diags([np.ones(m - 1), np.full(m, 2.0), np.ones(m - 1)], [-1, 0, 1], shape=(m, m))
     c3 = sp.csr_array((np.ones(3), ([0, 1, 2], [1, 2, 0])), shape=(3, 3))
-    a = sp.csr_array(sp.kron(c3, path))
+    return sp.csr_array(sp.kron(c3, path))
+
+
+def test_no_real_eigenvalue_in_reach_is_a_clear_convergence_error():
+    # 1,200 units: above the size solved densely when Arnoldi does not settle
+    a = c3_kron_path(400)
     ev = np.linalg.eigvals(a.toarray())  # numpy check of the setup
     assert abs(ev[np.argmin(ev.real)].imag) > 0.1
     with pytest.raises(vicino.ConvergenceError, match="inside the spectrum") as err:
         vicino.from_matrix(a).eigenvalue_bounds()
     assert "spectral_radius()" in str(err.value)  # says what to do instead
+
+
+def test_real_eigenvalue_inside_the_spectrum_of_a_smaller_block_is_found_densely():
+    a = c3_kron_path(250)  # 750 units
+    lo, hi = real_ends(a.toarray())  # reference: numpy.linalg.eigvals
+    b = vicino.from_matrix(a).eigenvalue_bounds()
+    assert b.lambda_min == pytest.approx(lo, abs=1e-9)
+    assert b.lambda_max == pytest.approx(hi, rel=1e-9)
+    assert abs(b.lambda_min - lo) <= b.min_error + 1e-12
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+@pytest.mark.parametrize("row", [False, True])
+def test_directed_cycle_with_random_chords_converges(seed, row):
+    # a directed cycle of 600 units plus five random chords, binary or row-standardized:
+    # hundreds of eigenvalues near the unit circle, complex ones left of the smallest real
+    # one, where restarted Arnoldi used to run out of products
+    n = 600
+    rng = np.random.default_rng(seed)
+    src = np.concatenate([np.arange(n), rng.integers(0, n, 5)])
+    dst = np.concatenate([(np.arange(n) + 1) % n, rng.integers(0, n, 5)])
+    keep = src != dst
+    a = sp.csr_array((np.ones(keep.sum()), (src[keep], dst[keep])), shape=(n, n))
+    a.data[:] = 1.0  # a chord along the cycle counts once
+    if row:
+        a = row_standardized(a)
+    lo, hi = real_ends(a.toarray())  # reference: numpy.linalg.eigvals
+    b = vicino.from_matrix(a).eigenvalue_bounds()
+    assert b.lambda_min == pytest.approx(lo, abs=1e-8)
+    assert b.lambda_max == pytest.approx(hi, abs=1e-8)
+    assert abs(b.lambda_min - lo) <= b.min_error + 1e-10  # the bound holds
 
 
 # ---------------------------------------------------------------- the result and bad inputs

@@ -21,7 +21,7 @@
 
 use super::basis::{combine, norm, orthogonalize, start_vector};
 use super::dense::hessenberg_eigenvalues;
-use super::lanczos::{BASIS, MAX_PRODUCTS};
+use super::lanczos::BASIS;
 use crate::csr::CsrRef;
 use crate::error::{Error, Result};
 use crate::guard::Guard;
@@ -169,8 +169,8 @@ fn real_eigenvector(h: &[f64], m: usize, theta: f64, scale: f64) -> Vec<f64> {
 }
 
 /// The smallest real eigenvalue of `a`, or with `largest` the largest (the
-/// method applied to -A).
-pub fn real_end(a: CsrRef<'_>, largest: bool, tol: f64, guard: &Guard) -> Result<RealEnd> {
+/// method applied to -A), in at most about `max_products` products.
+pub fn real_end(a: CsrRef<'_>, largest: bool, tol: f64, max_products: usize, guard: &Guard) -> Result<RealEnd> {
     let n = a.n();
     let m = n.min(BASIS);
     guard.reserve(
@@ -253,7 +253,7 @@ pub fn real_end(a: CsrRef<'_>, largest: bool, tol: f64, guard: &Guard) -> Result
                 });
             }
         }
-        if products >= MAX_PRODUCTS || size < m {
+        if products >= max_products || size < m {
             let (value, error) = match first_real {
                 Some(j) => (sign * ritz[j].0, residual(ritz[j].0, ritz[j].1)),
                 None => (f64::NAN, f64::NAN),

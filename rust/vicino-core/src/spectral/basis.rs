@@ -131,3 +131,35 @@ pub fn combine(vs: &[Vec<f64>], s: &[f64], width: usize, cols: &[usize]) -> Vec<
     }
     out
 }
+
+/// One three-term Lanczos update in place, w <- w - alpha q - beta p, and
+/// the norm of the result; the squares are added block by block in order.
+pub fn three_term(w: &mut [f64], q: &[f64], p: &[f64], alpha: f64, beta: f64) -> f64 {
+    let apply = |(b, chunk): (usize, &mut [f64])| -> f64 {
+        let at = b * BLOCK;
+        let (qb, pb) = (&q[at..at + chunk.len()], &p[at..at + chunk.len()]);
+        for ((x, &y), &z) in chunk.iter_mut().zip(qb).zip(pb) {
+            *x -= alpha * y + beta * z;
+        }
+        dot(chunk, chunk)
+    };
+    let parts: Vec<f64> = if w.len() >= PARALLEL {
+        w.par_chunks_mut(BLOCK).enumerate().map(apply).collect()
+    } else {
+        w.chunks_mut(BLOCK).enumerate().map(apply).collect()
+    };
+    parts.iter().sum::<f64>().sqrt()
+}
+
+/// y <- y + c x.
+pub fn axpy(y: &mut [f64], c: f64, x: &[f64]) {
+    let apply = |(b, chunk): (usize, &mut [f64])| {
+        let at = b * BLOCK;
+        chunk.iter_mut().zip(&x[at..]).for_each(|(u, &v)| *u += c * v);
+    };
+    if y.len() >= PARALLEL {
+        y.par_chunks_mut(BLOCK).enumerate().for_each(apply);
+    } else {
+        y.chunks_mut(BLOCK).enumerate().for_each(apply);
+    }
+}

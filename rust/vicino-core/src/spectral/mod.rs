@@ -31,10 +31,13 @@
 //!   converges the error reports the bracket reached.
 //!
 //! The real extreme eigenvalues ([`eigenvalue_bounds`]): exact (dense) up to
-//! `DENSE_MAX` units; beyond, thick-restart Lanczos with full
-//! reorthogonalization on the symmetric form ([`lanczos`]), or per strongly
-//! connected block the largest from the spectral radius and the smallest by
-//! implicitly restarted Arnoldi ([`arnoldi`]).
+//! `DENSE_MAX` units; beyond, Lanczos on the symmetric form ([`lanczos`]:
+//! plain Lanczos with explicitly checked Ritz vectors, thick restart when
+//! those do not check out), or per strongly connected block the largest
+//! from the spectral radius and the smallest by implicitly restarted
+//! Arnoldi ([`arnoldi`]); a block of at most `DENSE_FALLBACK` units on which
+//! Arnoldi does not settle within `FALLBACK_PRODUCTS` products is solved
+//! densely.
 //!
 //! Weights far from 1 in magnitude (beyond 2^+-128) are first divided by a
 //! power of two near the largest (exact), so that no product or sum
@@ -84,6 +87,12 @@ pub struct SpectralRadius {
 
 /// Largest matrix (or strongly connected block) solved densely.
 pub const DENSE_MAX: usize = 300;
+/// Largest non-symmetric block solved densely when Arnoldi does not settle
+/// within `FALLBACK_PRODUCTS` products (a long directed cycle with a few
+/// chords: hundreds of eigenvalues near a circle, the real ones inside).
+/// The dense solve takes about 10 n^3 operations: a few seconds at 1,000.
+pub const DENSE_FALLBACK: usize = 1000;
+const FALLBACK_PRODUCTS: usize = 3000;
 
 const MAX_LANCZOS: usize = 5000;
 const MAX_POWER: usize = 20_000;
@@ -394,8 +403,13 @@ fn dense_of(w: CsrRef<'_>) -> Vec<f64> {
 /// would lose the eigenvalues of faint cycles beside strong links, which the
 /// (multiplicative) power iteration keeps.
 fn dense_suits(w: CsrRef<'_>) -> bool {
+    w.n() <= DENSE_MAX && dense_suits_entries(w)
+}
+
+/// Whether the weights lie within 10^40 of each other (see [`dense_suits`]).
+fn dense_suits_entries(w: CsrRef<'_>) -> bool {
     let (lo, hi) = w.data().iter().fold((f64::INFINITY, 0.0f64), |(a, b), &x| (a.min(x), b.max(x)));
-    w.n() <= DENSE_MAX && lo > 0.0 && hi <= lo * 1e40
+    lo > 0.0 && hi <= lo * 1e40
 }
 
 /// Backward error of a dense solve: a few rounding units of ||W||_F per unit.
@@ -425,7 +439,7 @@ fn large_block_radius(b: CsrRef<'_>, floor: f64, guard: &Guard) -> Result<(f64, 
         Ok((lo, hi, it)) => Ok((0.5 * (lo + hi), 0.5 * (hi - lo), it, SpectralMethod::ShiftedPower)),
         Err(Error::NotConverged { iterations, low, high }) => {
             // the bracket did not close: the rightmost eigenvalue by Arnoldi
-            match arnoldi::real_end(b, true, 1e-10, guard) {
+            match arnoldi::real_end(b, true, 1e-10, lanczos::MAX_PRODUCTS, guard) {
                 // accepted only when sharp and inside the bracket, which always holds rho
                 Ok(r) if r.error <= 1e-8 * r.value && r.value >= low && r.value <= high => {
                     Ok((r.value, r.error.min(high - low), iterations + r.products, SpectralMethod::Arnoldi))
@@ -556,19 +570,50 @@ fn symmetric_bounds(m: CsrRef<'_>, constant: Option<f64>, tol: f64, guard: &Guar
         });
     }
     let r = lanczos::extremes(m, constant.is_none(), tol, guard)?;
+    let method = if r.restarted { SpectralMethod::ThickLanczos } else { SpectralMethod::Lanczos };
     let (max, max_error, max_method) = match constant {
         Some(c) => (c, 0.0, SpectralMethod::ConstantSums),
-        None => (r.max, r.max_error, SpectralMethod::ThickLanczos),
+        None => (r.max, r.max_error, method),
     };
     Ok(EigenvalueBounds {
         min: r.min,
         min_error: r.min_error,
-        min_method: SpectralMethod::ThickLanczos,
+        min_method: method,
         max,
         max_error,
         max_method,
         products: r.products,
     })
+}
+
+/// The real ends of one irreducible block with links (n > DENSE_MAX): the
+/// largest from the spectral radius, the smallest by Arnoldi; a block of at
+/// most `DENSE_FALLBACK` units on which either does not settle is solved
+/// densely instead. Returns the ends and the products spent.
+fn large_real_ends(b: CsrRef<'_>, floor: f64, tol: f64, guard: &Guard) -> Result<(End, End, usize)> {
+    let small = b.n() <= DENSE_FALLBACK && dense_suits_entries(b);
+    let cap = if small { FALLBACK_PRODUCTS } else { lanczos::MAX_PRODUCTS };
+    let attempt = || -> Result<(End, End, usize)> {
+        let (rho, err, it, method) = large_block_radius(b, floor, guard)?;
+        let r = arnoldi::real_end(b, false, tol, cap, guard)?;
+        Ok((End(r.value, r.error, SpectralMethod::Arnoldi), End(rho, err, method), it + r.products))
+    };
+    match attempt() {
+        Err(Error::Interrupted) => Err(Error::Interrupted),
+        Err(e @ Error::TooLarge { .. }) => Err(e),
+        Err(e) if small => {
+            guard.check()?;
+            let (l, h) = dense_real_ends(b)?;
+            // the products the iterations spent before giving way
+            let spent = match e {
+                Error::NotConverged { iterations, .. } => iterations,
+                Error::EigenNotConverged { products, .. } | Error::NoRealEigenvalue { products, .. } => products,
+                _ => 0,
+            };
+            Ok((l, h, spent))
+        }
+        other => other,
+    }
 }
 
 fn general_bounds(w: CsrRef<'_>, constant: Option<f64>, tol: f64, guard: &Guard) -> Result<EigenvalueBounds> {
@@ -594,12 +639,10 @@ fn general_bounds(w: CsrRef<'_>, constant: Option<f64>, tol: f64, guard: &Guard)
                 hi.keep(h, false);
             }
             Block::Matrix(b) => {
-                let (rho, err, it, method) = large_block_radius(b.view(), hi.0, guard)?;
-                products += it;
-                hi.keep(End(rho, err, method), false);
-                let r = arnoldi::real_end(b.view(), false, tol, guard)?;
-                products += r.products;
-                lo.keep(End(r.value, r.error, SpectralMethod::Arnoldi), true);
+                let (l, h, spent) = large_real_ends(b.view(), hi.0, tol, guard)?;
+                products += spent;
+                lo.keep(l, true);
+                hi.keep(h, false);
             }
         }
         Ok(())

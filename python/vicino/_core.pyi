@@ -15,6 +15,7 @@ __all__ = [
     "LocalGetisOrdOut",
     "LocalMoranOut",
     "MoranOut",
+    "Packed",
     "adjust_p_values",
     "centroids",
     "cliff_ord",
@@ -34,12 +35,15 @@ __all__ = [
     "k_nearest",
     "kernel_weights",
     "lag_columns",
+    "lag_packed_columns",
+    "lag_packed_vector",
     "lag_vector",
     "local_getis_ord",
     "local_moran",
     "moran",
     "neighbour_counts",
     "order",
+    "pack",
     "read_int_ids",
     "read_matrix_market",
     "read_triplet",
@@ -104,6 +108,11 @@ class MoranOut:
     def permutation(self) -> tuple[int, float, float, float, float, _F] | None: ...
 
 @final
+class Packed:
+    @property
+    def nbytes(self) -> int: ...
+
+@final
 class GlobalOut:
     @property
     def statistic(self) -> float: ...
@@ -156,6 +165,9 @@ def spectral_radius(w: _W) -> tuple[float, int, str, float]: ...
 def eigenvalue_bounds(w: _W, tol: float) -> tuple[tuple[float, float, str], tuple[float, float, str], int]: ...
 def lag_vector(w: _W, x: _F) -> _F: ...
 def lag_columns(w: _W, x: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]: ...
+def pack(w: _W) -> Packed | None: ...
+def lag_packed_vector(w: Packed, x: _F) -> _F: ...
+def lag_packed_columns(w: Packed, x: npt.NDArray[np.float64]) -> npt.NDArray[np.float64]: ...
 def moran(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> MoranOut: ...
 def geary(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> GlobalOut: ...
 def getis_ord(w: _W, x: _F, permutations: int, seed: int, alternative: _Alternative) -> GlobalOut: ...

@@ -32,6 +32,7 @@ Ints = npt.NDArray[np.int64]
 Floats = npt.NDArray[np.float64]
 Csr = tuple[Ints, Ints, Floats]
 CoreMatrix = tuple[int, Ints, Ints, Floats]  # (n, indptr, indices, data) of a Weights
+Packed = _core.Packed  # a Weights packed for repeated lags
 Polygons = tuple[str, Any, Ints]
 
 EARTH_RADIUS_KM: float = _core.EARTH_RADIUS_KM
@@ -241,12 +242,19 @@ def eigenvalue_bounds(
     return _run(_core.eigenvalue_bounds, ids, w, tol)
 
 
-def lag(w: CoreMatrix, values: np.ndarray, ids: pd.Index) -> np.ndarray:
-    """W x for a vector, W X for an (n, m) array."""
+def lag(w: CoreMatrix | _core.Packed, values: np.ndarray, ids: pd.Index) -> np.ndarray:
+    """W x for a vector, W X for an (n, m) array; ``w`` as buffers or packed."""
     x = frozen(values)
+    if isinstance(w, _core.Packed):
+        return _run(_core.lag_packed_vector if x.ndim == 1 else _core.lag_packed_columns, ids, w, x)
     if x.ndim == 1:
         return _run(_core.lag_vector, ids, w, x)
     return _run(_core.lag_columns, ids, w, x)
+
+
+def pack(w: CoreMatrix) -> _core.Packed | None:
+    """The packed form of a matrix for repeated lags (None when it does not fit 32-bit positions)."""
+    return _run(_core.pack, None, w)
 
 
 def moran(w: CoreMatrix, x: np.ndarray, permutations: int, seed: int, alternative: str, ids: pd.Index) -> Any:

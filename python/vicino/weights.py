@@ -128,7 +128,19 @@ class Weights:
         How the matrix was built and transformed.
     """
 
-    __slots__ = ("_counts", "_data", "_duplicates", "_ids", "_indices", "_indptr", "_links", "_recipe", "_units")
+    __slots__ = (
+        "_counts",
+        "_data",
+        "_duplicates",
+        "_ids",
+        "_indices",
+        "_indptr",
+        "_lags",
+        "_links",
+        "_packed",
+        "_recipe",
+        "_units",
+    )
     _indptr: npt.NDArray[np.int64]
     _indices: npt.NDArray[np.int64]
     _data: npt.NDArray[np.float64]
@@ -138,6 +150,8 @@ class Weights:
     _units: Mapping[str, np.ndarray]
     _duplicates: int | None
     _counts: npt.NDArray[np.int64] | None
+    _lags: int
+    _packed: core.Packed | None
 
     def __init__(self, indptr: Any, indices: Any, data: Any, ids: Any, recipe: Iterable[Step] = ()) -> None:
         indptr = _buffer(indptr, "indptr", "iu")
@@ -167,6 +181,9 @@ class Weights:
         # units sharing a location, as the builder found; None once unknown (after dropping units)
         put(self, "_duplicates", None if duplicates is None else int(duplicates))
         put(self, "_counts", None)
+        # lags taken so far, and the packed form built for the second one (see lag)
+        put(self, "_lags", 0)
+        put(self, "_packed", None)
 
     @classmethod
     def _make(
@@ -448,7 +465,22 @@ class Weights:
         type, index and columns.
         """
         arr, wrap = aligned_values(self, values, allow_2d=True)
-        return wrap(core.lag(self._core(), arr, self._ids))
+        return wrap(core.lag(self._lag_form(), arr, self._ids))
+
+    def _lag_form(self) -> core.CoreMatrix | core.Packed:
+        """The matrix for a lag: the buffers the first time, then a packed copy kept for the next ones.
+
+        The packed copy (32-bit positions, one weight per row where the rows
+        allow it, rows in a locality order) reads less than half the bytes
+        of the buffers per product and gives the same numbers bit for bit;
+        it costs about a few products to build, so a single lag goes without it.
+        """
+        if self._packed is None:
+            object.__setattr__(self, "_lags", self._lags + 1)
+            if self._lags != 2:  # the first lag, or packing gave None (over 32-bit positions)
+                return self._core()
+            object.__setattr__(self, "_packed", core.pack(self._core()))
+        return self._core() if self._packed is None else self._packed
 
     def to_networkx(self) -> Any:
         """The weights as a ``networkx.DiGraph``: ids as nodes, links as edges.

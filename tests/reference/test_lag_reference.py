@@ -162,3 +162,22 @@ def test_lag_wrong_length_and_misaligned_series():
     s = pd.Series(np.ones(w.n), index=w.ids[::-1])
     with pytest.raises(vicino.IdError, match="order"):
         w.lag(s)
+
+
+@pytest.mark.parametrize("standardize", ["row", "binary", None])
+def test_repeated_lags_use_the_packed_copy_and_match_scipy_bit_for_bit(standardize):
+    # from the second lag on the Weights keep a packed copy (32-bit positions, one
+    # weight per row where rows allow, rows in a locality order); the product must stay
+    # scipy's csr_array @ x to the last bit (reference: scipy.sparse product, same sum order)
+    knn = vicino.k_nearest(_points(3000, 5), 8)
+    # None: one weight per link, and empty rows
+    w = vicino.from_matrix(_random_matrix(300, 6)) if standardize is None else knn.standardize(standardize)
+    m = w.to_scipy()
+    rng = np.random.default_rng(7)
+    x1, x8 = rng.normal(size=w.n), rng.normal(size=(w.n, 8))
+    for _ in range(3):
+        np.testing.assert_array_equal(w.lag(x1), m @ x1)
+        np.testing.assert_array_equal(w.lag(x8), m @ x8)
+    assert w._packed is not None
+    with pytest.raises(vicino.InvalidValuesError):
+        w.lag(np.full(w.n, np.nan))

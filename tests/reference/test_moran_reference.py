@@ -323,3 +323,25 @@ def test_draws_identical_across_thread_counts(tmp_path):
     w = vicino.k_nearest(pts, 8).standardize("row").to_scipy()
     z = x - x.mean()
     assert out["1"][0] == pytest.approx(len(x) / w.sum() * (z @ (w @ z)) / (z @ z), rel=1e-10)  # Moran (1950)
+
+
+def test_moran_without_permutations_matches_the_numpy_formulas_on_asymmetric_weights():
+    # reference: Cliff and Ord (1981): I = n/S0 z'Wz/z'z, S1 = 1/2 sum (w_ij + w_ji)^2,
+    # S2 = sum (w_i. + w_.i)^2, variance under normality, written with numpy
+    rng = np.random.default_rng(11)
+    w = vicino.k_nearest(rng.random((500, 2)), 6).standardize("row")
+    x = rng.normal(size=500)
+    a = w.to_dense()
+    n = 500
+    z = x - x.mean()
+    s0, s1 = a.sum(), 0.5 * ((a + a.T) ** 2).sum()
+    s2 = ((a.sum(axis=1) + a.sum(axis=0)) ** 2).sum()
+    i = n / s0 * (z @ a @ z) / (z @ z)
+    e = -1 / (n - 1)
+    var = (n * n * s1 - n * s2 + 3 * s0**2) / ((n * n - 1) * s0**2) - e**2
+    r = vicino.moran(x, w, permutations=0)
+    assert r.statistic == pytest.approx(i, rel=1e-12)
+    assert (r.s0, r.s1, r.s2) == pytest.approx((s0, s1, s2), rel=1e-12)
+    assert r.normality.variance == pytest.approx(var, rel=1e-10)
+    # with draws the observed value comes from the symmetrized form: equal to rounding
+    assert vicino.moran(x, w, permutations=9, seed=1).statistic == pytest.approx(r.statistic, rel=1e-12)

@@ -35,6 +35,34 @@ pub(crate) fn prefetch<T>(x: &[T], j: usize) {
     let _ = (x, j);
 }
 
+/// Breadth-first order over the links `row(u)` of n units, component by
+/// component, starting each from its lowest position: `order[new] = old`
+/// (in the spirit of Cuthill and McKee 1969). Consecutive units in this
+/// order have their neighbours close to each other. O(n + links).
+pub fn locality_order<I: Iterator<Item = usize>>(n: usize, row: impl Fn(usize) -> I) -> Vec<u32> {
+    let mut seen = vec![false; n];
+    let mut order: Vec<u32> = Vec::with_capacity(n);
+    for root in 0..n {
+        if seen[root] {
+            continue;
+        }
+        seen[root] = true;
+        let mut head = order.len();
+        order.push(root as u32);
+        while head < order.len() {
+            let u = order[head] as usize;
+            head += 1;
+            for v in row(u) {
+                if !seen[v] {
+                    seen[v] = true;
+                    order.push(v as u32);
+                }
+            }
+        }
+    }
+    order
+}
+
 /// Rows per block of [`build_rows`] (each block has its own buffers).
 pub const BUILD_BLOCK: usize = 2048;
 

@@ -50,6 +50,10 @@ fn _core(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(weights::eigenvalue_bounds, m)?)?;
     m.add_function(wrap_pyfunction!(weights::lag_vector, m)?)?;
     m.add_function(wrap_pyfunction!(weights::lag_columns, m)?)?;
+    m.add_class::<weights::Packed>()?;
+    m.add_function(wrap_pyfunction!(weights::pack, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::lag_packed_vector, m)?)?;
+    m.add_function(wrap_pyfunction!(weights::lag_packed_columns, m)?)?;
     m.add_function(wrap_pyfunction!(stats::moran, m)?)?;
     m.add_function(wrap_pyfunction!(contiguity::contiguity, m)?)?;
     m.add_function(wrap_pyfunction!(contiguity::cliff_ord, m)?)?;

@@ -105,3 +105,48 @@ pub fn lag_columns<'py>(
     let out = run(py, |_| lag::lag(w, flat, m))?;
     out.into_pyarray(py).reshape([rows, m])
 }
+
+/// A weights matrix packed for repeated lags (see `vicino_core::lag::Packed`),
+/// kept by a `vicino.Weights` once it has been lagged more than once.
+#[pyclass(frozen, module = "vicino._core")]
+pub struct Packed(lag::Packed);
+
+#[pymethods]
+impl Packed {
+    /// Bytes held by the packed matrix.
+    #[getter]
+    fn nbytes(&self) -> usize {
+        self.0.bytes()
+    }
+}
+
+/// The packed form of a matrix; None when it does not fit 32-bit positions.
+#[pyfunction]
+pub fn pack<'py>(py: Python<'py>, w: CsrArgs<'py>) -> PyResult<Option<Packed>> {
+    let w = w.view(py)?;
+    Ok(run(py, |_| Ok(lag::Packed::new(w)))?.map(Packed))
+}
+
+/// W x for a vector, with a packed matrix.
+#[pyfunction]
+pub fn lag_packed_vector<'py>(
+    py: Python<'py>,
+    w: &Packed,
+    x: PyReadonlyArray1<'py, f64>,
+) -> PyResult<Bound<'py, PyArray1<f64>>> {
+    let x = slice(&x)?;
+    Ok(run(py, |_| w.0.lag(x, 1))?.into_pyarray(py))
+}
+
+/// W X for an (n, m) C-contiguous array, with a packed matrix.
+#[pyfunction]
+pub fn lag_packed_columns<'py>(
+    py: Python<'py>,
+    w: &Packed,
+    x: PyReadonlyArray2<'py, f64>,
+) -> PyResult<Bound<'py, PyArray2<f64>>> {
+    let (rows, m) = (x.shape()[0], x.shape()[1]);
+    let flat = x.as_slice().map_err(|e| pyo3::exceptions::PyValueError::new_err(e.to_string()))?;
+    let out = run(py, |_| w.0.lag(flat, m))?;
+    out.into_pyarray(py).reshape([rows, m])
+}

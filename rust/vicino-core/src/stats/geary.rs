@@ -20,7 +20,7 @@
 //! quadratic form ([`QuadraticForm`]): O(n + nnz/2) per draw, draws in
 //! parallel on their own seeded streams (see [`super::permutation`]); draw r
 //! shuffles the centred values in the form's locality order with
-//! `shuffle(stream(seed, r), ..)`, the same draws as moran's.
+//! `shuffle_into(stream(seed, r), ..)`, the same draws as moran's.
 
 use super::global::{centred, permutation_summary, permuted, Analytic, Permutation};
 use super::moments::{weight_sums, QuadraticForm, WeightSums};

@@ -15,7 +15,7 @@
 //! The values are divided by a power of two near the largest (exact; G is
 //! invariant to the scale of x). G scales with the weights. Permutations:
 //! O(n + nnz/2) per draw, each on its own seeded stream; draw r shuffles
-//! the values in the quadratic form's order with `shuffle(stream(seed, r), ..)`.
+//! the values in the quadratic form's order with `shuffle_into(stream(seed, r), ..)`.
 
 use super::geary::Prepared;
 use super::global::{permutation_summary, permuted, Analytic, Permutation};

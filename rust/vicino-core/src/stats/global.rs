@@ -14,15 +14,16 @@
 //! permutation distribution). Each draw costs O(n + nnz/2); draws run in
 //! parallel, each on its own seeded stream. Draw r shuffles the centred
 //! values arranged in the quadratic form's locality order
-//! ([`QuadraticForm::order`]) with `shuffle(stream(seed, r), ..)`.
+//! ([`QuadraticForm::order`]) with `shuffle_into(stream(seed, r), ..)`.
 
-use super::moments::{weight_sums, QuadraticForm, WeightSums};
-use super::permutation::{shuffle, stream};
+use super::moments::{self, QuadraticForm, WeightSums};
+use super::permutation::{shuffle_into, stream};
 use super::Alternative;
 use crate::csr::CsrRef;
 use crate::error::{Error, Result, Units};
 use crate::frame::{moderate, pow2_exponent, times_pow2};
 use crate::guard::Guard;
+use crate::lag::lag_unchecked;
 use rayon::prelude::*;
 
 /// Variance and z-score under one assumption.
@@ -112,8 +113,8 @@ pub fn permutation_summary(draws: Vec<f64>, observed: f64, centre: f64, alt: Alt
     Permutation { extreme, p_value: (extreme as f64 + 1.0) / (r + 1.0), mean, std, z: (observed - mean) / std, draws }
 }
 
-/// Values of a statistic on `draws` permutations of `z`; draw r shuffles a
-/// copy of `z` with stream (seed, r). Draws are taken two at a time so that
+/// Values of a statistic on `draws` permutations of `z`; draw r is
+/// `shuffle_into(stream(seed, r), z, ..)`. Draws are taken two at a time so that
 /// `pair` can share one pass over the weights between them; `one` serves a
 /// last odd draw. Both must give the same value for the same vector. The
 /// guard is asked for the memory of the draws first and checked between
@@ -129,10 +130,7 @@ where
         "keeping the permutation draws",
         "use fewer permutations (999 or 9,999 are the usual choices)",
     )?;
-    let shuffled = |buf: &mut Vec<f64>, r: usize| {
-        buf.copy_from_slice(z);
-        shuffle(&mut stream(seed, r as u64), buf);
-    };
+    let shuffled = |buf: &mut Vec<f64>, r: usize| shuffle_into(&mut stream(seed, r as u64), z, buf);
     let pairs: Vec<(T, Option<T>)> = (0..draws.div_ceil(2))
         .into_par_iter()
         .map_init(
@@ -181,7 +179,7 @@ pub fn moran(
     let z = centred(w, x)?;
     let (moderated, e) = moderate(w);
     let w = moderated.as_ref().map_or(w, |m| m.view());
-    let (sums, q) = weight_sums(w);
+    let sums = moments::sums(w);
     if !(sums.s0 > 0.0) {
         return Err(Error::NoWeight { what: "Moran's I" });
     }
@@ -189,10 +187,16 @@ pub fn moran(
     let m4: f64 = z.iter().map(|v| v.powi(4)).sum();
     let nf = n as f64;
     let scale = nf / (sums.s0 * m2);
-    // observed and permuted values alike are evaluated in the form's order
-    let y = q.local(&z);
+    // with draws, observed and permuted values alike are evaluated by the
+    // form, in its order (a draw that restores the observed order must give
+    // the observed value); without, z'Wz = z . Wz, which needs no W + W^T
+    let form = (permutations > 0).then(|| QuadraticForm::new(w));
+    let y = form.as_ref().map(|q| q.local(&z));
     let stat = |q: &QuadraticForm, y: &[f64]| scale * q.eval_local(y);
-    let statistic = stat(&q, &y);
+    let statistic = match (&form, &y) {
+        (Some(q), Some(y)) => stat(q, y),
+        _ => scale * lag_unchecked(w, &z, 1).iter().zip(&z).map(|(a, b)| a * b).sum::<f64>(),
+    };
     let expected = -1.0 / (nf - 1.0);
     let WeightSums { s0, s1, s2 } = sums;
     let var_norm = (nf * nf * s1 - nf * s2 + 3.0 * s0 * s0) / ((nf * nf - 1.0) * s0 * s0) - expected * expected;
@@ -202,13 +206,13 @@ pub fn moran(
         / ((nf - 1.0) * (nf - 2.0) * (nf - 3.0) * s0 * s0)
         - expected * expected;
     let analytic = |v: f64| Analytic { variance: v, z: (statistic - expected) / v.sqrt() };
-    let permutation = (permutations > 0).then(|| {
+    let permutation = form.as_ref().zip(y.as_ref()).map(|(q, y)| {
         let draws = permuted(
-            &y,
+            y,
             permutations,
             seed,
             guard,
-            |yp| stat(&q, yp),
+            |yp| stat(q, yp),
             |a, b| {
                 let (u, v) = q.eval_local_pair(a, b);
                 (scale * u, scale * v)

@@ -22,7 +22,7 @@
 //!
 //! Permutations (the conditional reference distribution of non-free
 //! sampling): draw r shuffles the 0 / 1 values in the quadratic form's
-//! order with `shuffle(stream(seed, r), ..)`; BB = x'Wx / 2, and with
+//! order with `shuffle_into(stream(seed, r), ..)`; BB = x'Wx / 2, and with
 //! d_i the row plus column sum, WW = (S0 - sum_i d_i x_i) / 2 + BB and
 //! BW = sum_i d_i x_i / 2 - 2 BB. O(n + nnz/2) per draw, in parallel.
 

@@ -9,6 +9,8 @@ and numpy.linalg; invalid matrices and arguments must be refused.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -480,6 +482,12 @@ def test_spectral_radius_matches_numpy_eigenvalues(m):
         return
     if small_radius(m.dense) and open_bug("spectral-radius-small-blocks"):
         return  # held back: see test_bug_spectral_radius_of_a_faint_cycle
+    top = np.ldexp(m.dense, -int(np.frexp(m.dense.max())[1]))
+    if ((top == 0) & (m.dense > 0)).any():
+        # weights beyond the range of one scale: the dense reference would underflow them
+        # (checked instead through exact similarities below), but the radius is positive
+        assert out.value > 0  # reference: networkx (a cycle of positive weights)
+        return
     # reference: numpy.linalg.eigvals
     assert out.value == pytest.approx(spectral_radius(m.dense), rel=1e-6, abs=0)
 
@@ -542,3 +550,48 @@ def test_regression_drop_islands_keeps_an_island_linked_only_to_itself():
 def test_regression_union_with_a_non_weights_object():
     w = vicino.from_matrix(np.array([[0.0, 1.0], [1.0, 0.0]]))
     refused(attempt(lambda: w | 3), vicino.InvalidTypeError)
+
+
+def test_regression_spectral_radius_of_a_cycle_beyond_the_range_of_one_scale():
+    # a 2-cycle of weights 1e300 and 1e-300: lambda^2 = w01 w10, so rho = 1 (closed form, common
+    # practice); moderating by the largest weight alone underflowed 1e-300 and returned 0
+    w = vicino.from_matrix(np.array([[0.0, 1e300], [1e-300, 0.0]]))
+    expected = math.exp(0.5 * (math.log(1e300) + math.log(1e-300)))
+    assert w.spectral_radius() == pytest.approx(expected, rel=1e-12)
+    b = w.eigenvalue_bounds()
+    assert (b.lambda_min, b.lambda_max) == (pytest.approx(-expected, rel=1e-12), pytest.approx(expected, rel=1e-12))
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_regression_spectral_radius_under_a_wide_diagonal_similarity(seed):
+    # W = D A D^-1 with D = diag(2^k), k in [-500, 500]: the same eigenvalues as A (a similarity,
+    # exact in powers of two), so numpy.linalg.eigvals on the moderate A is the reference
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(3, 9))
+    a = rng.random((n, n)) * (rng.random((n, n)) < 0.6)
+    a[np.arange(n), (np.arange(n) + 1) % n] = 0.5 + rng.random(n)  # a cycle through every unit
+    np.fill_diagonal(a, 0.0)
+    k = rng.integers(-500, 501, n)
+    w = np.ldexp(a, k[:, None] - k[None, :])
+    assert np.isfinite(w).all() and ((w > 0) == (a > 0)).all()
+    rho = np.abs(np.linalg.eigvals(a)).max()  # reference: numpy.linalg.eigvals
+    out = attempt(vicino.from_matrix(w).spectral_radius)
+    if not out.ok:
+        refused(out, vicino.ConvergenceError)
+        return
+    assert out.value == pytest.approx(rho, rel=1e-6)
+
+
+@pytest.mark.parametrize("exp10", [-300, -150, -40, 40, 150, 300])
+def test_spectral_radius_scales_linearly_over_the_whole_range(exp10):
+    # rho(c W) = c rho(W) (an identity), against numpy.linalg.eigvals on the unscaled matrix
+    rng = np.random.default_rng(exp10 + 1000)
+    for _ in range(20):
+        n = int(rng.integers(2, 10))
+        dense = rng.random((n, n)) * (rng.random((n, n)) < 0.5)
+        np.fill_diagonal(dense, 0.0)
+        rho = np.abs(np.linalg.eigvals(dense)).max()
+        if rho < 1e-9:
+            continue
+        got = vicino.from_matrix(dense * 10.0**exp10).spectral_radius()
+        assert got == pytest.approx(rho * 10.0**exp10, rel=1e-6)

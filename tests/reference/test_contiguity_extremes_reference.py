@@ -165,13 +165,63 @@ def test_overlapping_units_share_a_positive_length(case):
     assert list(c.islands) == [2]
 
 
-@pytest.mark.xfail(strict=True, raises=AssertionError, reason="known limit: overlap without a proper crossing")
-def test_overlap_where_boundaries_only_touch():
-    # the boundaries meet only at vertices and along the top and bottom edges: no proper
-    # crossing, so vicino keeps the common border (2) instead of the documented 6
+# overlaps whose boundaries touch but never cross properly
+TOUCHING_OVERLAPS = {
+    # collinear overlapping edges: the top and bottom edges overlap along [1, 2]
+    "boxes overlapping along common edges": [box(0, 0, 2, 2), box(1, 0, 3, 2)],
+    # one unit inside another, touching its boundary along a segment
+    "box inside touching the bottom": [box(0, 0, 10, 10), box(2, 0, 3, 1)],
+    "box inside touching two sides": [box(0, 0, 10, 10), box(0, 0, 3, 1)],
+    "triangle inside along an edge": [box(0, 0, 4, 4), Polygon([(1, 0), (3, 0), (2, 1)])],
+    # overlaps that touch the other boundary only at vertices
+    "diamond inscribed in a box": [box(0, 0, 2, 2), Polygon([(1, 0), (2, 1), (1, 2), (0, 1)])],
+    "triangle from a corner": [box(0, 0, 2, 2), Polygon([(0, 0), (2, 1), (1, 2)])],
+    "triangle inside at one corner": [box(0, 0, 2, 2), Polygon([(2, 2), (1, 1.5), (1.5, 1)])],
+    "triangle inside at one edge point": [box(0, 0, 2, 2), Polygon([(1, 0), (1.5, 1), (0.5, 1)])],
+    # a multi-part unit: one part inside the other unit, one touching it from outside
+    "parts inside and beside": [
+        box(0, 0, 2, 2),
+        shapely.MultiPolygon([box(0.5, 0.5, 1, 1), box(2, 0, 3, 1)]),
+    ],
+}
+
+
+@pytest.mark.parametrize("case", sorted(TOUCHING_OVERLAPS))
+@pytest.mark.parametrize("tolerance", [0.0, 1e-9])
+def test_overlap_where_boundaries_only_touch(case, tolerance):
+    a, b = TOUCHING_OVERLAPS[case]
+    # the boundaries meet (at vertices or along stretches, never crossing properly)
+    assert shapely.intersects(a.boundary, b.boundary)
+    expected = shared_length(a, b)  # reference: shapely intersections of boundaries and filled units
+    assert expected > shapely.intersection(a.boundary, b.boundary).length
+    for u, v in ((a, b), (b, a)):
+        w = vicino.contiguity([u, v, box(50, 50, 51, 51)], "rook", weight="border_length", tolerance=tolerance)
+        assert pairs(w) == {(0, 1), (1, 0)}
+        np.testing.assert_allclose(border_lengths(w)[(0, 1)], expected, rtol=1e-12)
+        assert pairs(vicino.contiguity([u, v], "queen", tolerance=tolerance)) == {(0, 1), (1, 0)}
+
+
+def test_overlap_along_common_edges_is_the_perimeter_of_the_overlap():
     a, b = box(0, 0, 2, 2), box(1, 0, 3, 2)
     w = vicino.contiguity([a, b], "rook", weight="border_length")
-    assert w.to_scipy().data.tolist() == [shared_length(a, b)] * 2  # reference: shapely, 6
+    # reference: shapely, the boundary of the overlap a ∩ b (the box [1, 2] x [0, 2]), 6
+    assert w.to_scipy().data.tolist() == [shapely.intersection(a, b).boundary.length] * 2
+
+
+@pytest.mark.parametrize(
+    "a,b",
+    [
+        (box(0, 0, 1, 1), box(1, 0, 2, 1)),  # a common edge
+        (box(0, 0, 1, 1), box(1, 0.25, 2, 0.75)),  # part of an edge
+        (box(0, 0, 1, 1), Polygon([(1, 0), (2, 0.5), (1, 1)])),  # a triangle on an edge, outside
+        (box(0, 0, 1, 1), box(0, 0, 1, 1)),  # identical units
+    ],
+)
+def test_units_that_touch_from_outside_keep_their_common_border(a, b):
+    w = vicino.contiguity([a, b], "rook", weight="border_length")
+    # reference: shapely length of the intersection of the two boundaries
+    np.testing.assert_allclose(w.to_scipy().data, [shapely.intersection(a.boundary, b.boundary).length] * 2)
+    assert shared_length(a, b) == pytest.approx(shapely.intersection(a.boundary, b.boundary).length)
 
 
 def test_enclave_shares_its_perimeter():

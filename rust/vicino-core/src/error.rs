@@ -302,7 +302,7 @@ pub enum Error {
     Unlocated { what: &'static str, units: Units },
     #[error(
         "the largest eigenvalue did not converge in {iterations} iterations: it lies between \
-         {low} and {high} (Collatz-Wielandt bounds); use \"max_entry\" or \"row\" instead, or report this case"
+         {low:e} and {high:e} (Collatz-Wielandt bounds); use \"max_entry\" or \"row\" instead, or report this case"
     )]
     NotConverged { iterations: usize, low: f64, high: f64 },
     #[error(

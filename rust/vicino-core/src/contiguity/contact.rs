@@ -18,7 +18,11 @@
 //! other boundary, and each piece is classified by a crossing-number test
 //! (Shimrat 1962) of its midpoint against the other's exterior segments,
 //! found through the same sweep structure ([`SegIndex`]). O(s log s) for s
-//! segments near the overlap, plus the segments each ray meets.
+//! segments near the overlap, plus the segments each ray meets. Boundaries
+//! that touch without crossing can bound an overlap too: [`enters`] finds
+//! it from the exact meetings ([`Meetings`]) gathered while the common
+//! border is measured, testing one midpoint per piece off the other
+//! boundary next to a meeting and per run of segments without meetings.
 
 use super::candidates::overlap;
 use super::geometry::{BBox, Polygons};
@@ -268,7 +272,7 @@ impl Sweep {
 
 impl SegIndex {
     /// Below this many segment pairs a scan is faster than building the sweep.
-    const SCAN: usize = 1024;
+    pub const SCAN: usize = 1024;
 
     pub fn new(to: &[Seg], asking: usize) -> Self {
         let big = to.len() >= 16 && to.len().saturating_mul(asking) > Self::SCAN;
@@ -279,9 +283,14 @@ impl SegIndex {
     /// superset: callers test the boxes again). The order differs between
     /// the two routes; callers only accumulate, so results do not.
     pub fn each(&self, to: &[Seg], bx: &BBox, mut f: impl FnMut(P, P)) {
+        self.each_at(to, bx, |_, a, b| f(a, b));
+    }
+
+    /// As [`SegIndex::each`], with the position of each segment in `to`.
+    pub fn each_at(&self, to: &[Seg], bx: &BBox, mut f: impl FnMut(usize, P, P)) {
         match &self.0 {
-            None => to.iter().for_each(|&(a, b)| f(a, b)),
-            Some(sweep) => sweep.each(bx[sweep.axis], bx[sweep.axis + 2], |k| f(to[k].0, to[k].1)),
+            None => to.iter().enumerate().for_each(|(k, &(a, b))| f(k, a, b)),
+            Some(sweep) => sweep.each(bx[sweep.axis], bx[sweep.axis + 2], |k| f(k, to[k].0, to[k].1)),
         }
     }
 }
@@ -401,6 +410,175 @@ pub fn inside_length(
         }
     }
     (inside, on)
+}
+
+/// The exact meetings of two boundaries, each side in the parameters of
+/// its own segments: (segment, lo, hi), lo == hi at a point, lo < hi along
+/// a common stretch. Gathered in the one pass that measures the common
+/// border, so that [`enters`] can tell, without a second pass, whether one
+/// boundary runs into the other unit where the two only touch.
+#[derive(Default)]
+pub struct Meetings {
+    pub a: Vec<(usize, f64, f64)>,
+    pub b: Vec<(usize, f64, f64)>,
+    at: Vec<f64>,
+}
+
+impl Meetings {
+    pub fn clear(&mut self) {
+        self.a.clear();
+        self.b.clear();
+    }
+
+    /// Record the meeting `m` = meet_exact(a0, a1, b0, b1) of segment `ka`
+    /// of one side with segment `kb` of the other.
+    pub fn record(&mut self, (ka, a0, a1): (usize, P, P), (kb, b0, b1): (usize, P, P), m: Meet) {
+        let at = &mut self.at;
+        match m {
+            Meet::Apart => {}
+            Meet::Point | Meet::Cross => {
+                at.clear();
+                meeting_params(a0, a1, b0, b1, at);
+                self.a.extend(at.iter().map(|&t| (ka, t, t)));
+                at.clear();
+                meeting_params(b0, b1, a0, a1, at);
+                self.b.extend(at.iter().map(|&t| (kb, t, t)));
+            }
+            Meet::Stretch(l, h) => {
+                self.a.push((ka, l, h));
+                let (t0, t1) = (param(b0, b1, a0), param(b0, b1, a1));
+                self.b.push((kb, t0.min(t1).max(0.0), t0.max(t1).min(1.0)));
+            }
+        }
+    }
+}
+
+/// Point-in-unit tests against one unit with its holes filled: a scan of
+/// its rings for the first few (or for a small unit), then a [`Fill`].
+pub struct Inside<'p> {
+    p: &'p Polygons<'p>,
+    u: usize,
+    bbox: BBox,
+    small: bool,
+    scans: usize,
+    fill: Option<Fill>,
+}
+
+impl<'p> Inside<'p> {
+    const SCANS: usize = 16;
+
+    pub fn new(p: &'p Polygons<'p>, u: usize, bbox: BBox) -> Self {
+        let small = p.rings_of(u).map(|(_, r)| r.len()).sum::<usize>() <= 64;
+        Inside { p, u, bbox, small, scans: 0, fill: None }
+    }
+
+    /// Whether q lies inside an exterior ring of the unit (points on its
+    /// boundary may go either way).
+    pub fn contains(&mut self, q: P) -> bool {
+        let b = self.bbox;
+        if q[0] < b[0] || q[0] > b[2] || q[1] < b[1] || q[1] > b[3] {
+            return false;
+        }
+        if self.fill.is_none() && (self.small || self.scans < Self::SCANS) {
+            self.scans += 1;
+            return self.p.inside_exterior(self.u, q);
+        }
+        let (p, u) = (self.p, self.u);
+        self.fill.get_or_insert_with(|| Fill::new(p, u).expect("a unit with a box has points")).contains(q)
+    }
+}
+
+/// Pieces shorter than this (in a segment's parameter) are rounding gaps
+/// between meetings, too short to classify.
+const PIECE: f64 = 16.0 * f64::EPSILON;
+
+/// A piece whose midpoint lies within this fraction of its length of the
+/// other boundary runs along it within rounding (a vertex an ulp off a
+/// straight edge): its side cannot be told from a rounded midpoint, and it
+/// counts as on the boundary, not inside.
+const ALONG: f64 = 1.0 / (1u64 << 40) as f64;
+
+fn dist2_to_segment(q: P, b0: P, b1: P) -> f64 {
+    let t = param(b0, b1, q).clamp(0.0, 1.0);
+    let d = sub(q, [b0[0] + t * (b1[0] - b0[0]), b0[1] + t * (b1[1] - b0[1])]);
+    dot(d, d)
+}
+
+/// The other unit and its boundary segments near the segments asking,
+/// with an index of them (built when first needed, if not given).
+pub struct Other<'a, 'p> {
+    inside: Inside<'p>,
+    to: &'a [Seg],
+    index: Option<&'a SegIndex>,
+    own: Option<SegIndex>,
+}
+
+impl<'a, 'p> Other<'a, 'p> {
+    pub fn new(inside: Inside<'p>, to: &'a [Seg], index: Option<&'a SegIndex>) -> Self {
+        Other { inside, to, index, own: None }
+    }
+
+    /// Whether the piece of length `len` with midpoint q lies inside the
+    /// unit, away from its boundary.
+    fn holds(&mut self, q: P, len: f64) -> bool {
+        if !self.inside.contains(q) {
+            return false;
+        }
+        let r = len * ALONG;
+        let mut along = false;
+        let to = self.to;
+        let index = match self.index {
+            Some(index) => index,
+            None => self.own.get_or_insert_with(|| SegIndex::new(to, SegIndex::SCAN)),
+        };
+        index.each(to, &seg_box(q, q, r), |b0, b1| along |= dist2_to_segment(q, b0, b1) <= r * r);
+        !along
+    }
+}
+
+/// Whether some part of the segments `from` (in ring order) that does not
+/// lie on the other boundary lies inside the other unit (`other`), given
+/// every exact meeting of `from` with the other boundary (`meets`, sorted
+/// here). Each segment is cut at its meetings and the pieces off the other
+/// boundary are tested by their midpoints (a piece along the other
+/// boundary within rounding counts as on it); a segment without meetings that
+/// continues the previous one lies on the same side as the end of it, so
+/// only the first of such a run is tested. Stops at the first piece inside.
+pub fn enters(from: &[Seg], meets: &mut [(usize, f64, f64)], other: &mut Other<'_, '_>) -> bool {
+    meets.sort_unstable_by(|x, y| x.0.cmp(&y.0).then(x.1.total_cmp(&y.1)));
+    let at = |a0: P, a1: P, t: f64| [a0[0] + t * (a1[0] - a0[0]), a0[1] + t * (a1[1] - a0[1])];
+    let mut cuts = Vec::new();
+    let mut next = 0;
+    for (k, &(a0, a1)) in from.iter().enumerate() {
+        let first = next;
+        while next < meets.len() && meets[next].0 == k {
+            next += 1;
+        }
+        let mine = &meets[first..next];
+        if mine.is_empty() {
+            let continues = k > 0 && from[k - 1].1 == a0;
+            if !continues && other.holds(at(a0, a1, 0.5), dot(sub(a1, a0), sub(a1, a0)).sqrt()) {
+                return true;
+            }
+            continue;
+        }
+        cuts.clear();
+        cuts.extend([0.0, 1.0]);
+        cuts.extend(mine.iter().flat_map(|&(_, l, h)| [l, h]));
+        cuts.sort_unstable_by(f64::total_cmp);
+        cuts.dedup();
+        for w in cuts.windows(2) {
+            let (t0, t1) = (w[0], w[1]);
+            let mid = 0.5 * (t0 + t1);
+            if t1 - t0 <= PIECE || mine.iter().any(|&(_, l, h)| l < h && l <= mid && mid <= h) {
+                continue;
+            }
+            if other.holds(at(a0, a1, mid), (t1 - t0) * dot(sub(a1, a0), sub(a1, a0)).sqrt()) {
+                return true;
+            }
+        }
+    }
+    false
 }
 
 #[cfg(test)]

@@ -36,7 +36,9 @@
 //! positive one: the length of each unit's boundary that lies within the
 //! other (holes filled), counting the common boundary once,
 //! |bd A ∩ B| + |bd B ∩ A| - |bd A ∩ bd B|. For units that only touch this
-//! is their common border; for units whose boundaries cross, the perimeter
+//! is their common border; for units that overlap (boundaries that cross,
+//! or that touch with one running into the other unit, found by
+//! [`contact::enters`] from the meetings of the first pass), the perimeter
 //! of their overlap plus any common border outside it; for an enclave
 //! (a unit inside another's exterior ring, boundaries apart) the enclave's
 //! perimeter.
@@ -55,7 +57,10 @@ use crate::guard::Guard;
 use crate::neighbors::metric::{haversine_km, Metric};
 use crate::neighbors::{z_order, LINK_BYTES};
 use candidates::Candidates;
-use contact::{coincident_interval, inside_length, meet_exact, near, seg_box, union_length, Fill, Meet, Seg, SegIndex};
+use contact::{
+    coincident_interval, enters, inside_length, meet_exact, near, seg_box, union_length, Fill, Inside, Meet, Meetings,
+    Other, Seg, SegIndex,
+};
 use geometry::BBox;
 pub use geometry::Polygons;
 use rayon::prelude::*;
@@ -115,7 +120,9 @@ struct Touch {
     crossed: bool,
 }
 
-/// Length of the part of the segments `from` lying on / alongside the segments `to`.
+/// Length of the part of the segments `from` lying on / alongside the
+/// segments `to`; with `rec`, their exact meetings are recorded too.
+#[allow(clippy::too_many_arguments)]
 fn covered(
     from: &[Seg],
     to: &[Seg],
@@ -124,12 +131,13 @@ fn covered(
     metric: Metric,
     touch: &mut Touch,
     iv: &mut Vec<(f64, f64)>,
+    mut rec: Option<&mut Meetings>,
 ) -> f64 {
     let mut total = 0.0;
-    for &(a0, a1) in from {
+    for (ka, &(a0, a1)) in from.iter().enumerate() {
         iv.clear();
         let ab = seg_box(a0, a1, tol);
-        index.each(to, &ab, |b0, b1| {
+        index.each_at(to, &ab, |kb, b0, b1| {
             // most pairs of segments are apart: reject them by their boxes
             if !seg_meets_box(b0, b1, &ab) {
                 return;
@@ -138,10 +146,17 @@ fn covered(
                 // the same edge in both units (clean shared vertices)
                 touch.contact = true;
                 iv.push((0.0, 1.0));
+                if let Some(r) = rec.as_deref_mut() {
+                    r.record((ka, a0, a1), (kb, b0, b1), Meet::Stretch(0.0, 1.0));
+                }
                 return;
             }
+            let exact = (tol == 0.0 || rec.is_some()).then(|| meet_exact(a0, a1, b0, b1));
+            if let (Some(r), Some(m)) = (rec.as_deref_mut(), exact) {
+                r.record((ka, a0, a1), (kb, b0, b1), m);
+            }
             if tol == 0.0 {
-                match meet_exact(a0, a1, b0, b1) {
+                match exact.expect("computed at tolerance 0") {
                     Meet::Apart => {}
                     Meet::Point => touch.contact = true,
                     Meet::Cross => {
@@ -155,7 +170,7 @@ fn covered(
                 }
             } else if near(a0, a1, b0, b1, tol) {
                 touch.contact = true;
-                touch.crossed |= meet_exact(a0, a1, b0, b1) == Meet::Cross;
+                touch.crossed |= exact.unwrap_or_else(|| meet_exact(a0, a1, b0, b1)) == Meet::Cross;
                 if let Some(r) = coincident_interval(a0, a1, b0, b1, tol) {
                     iv.push(r);
                 }
@@ -174,6 +189,7 @@ struct Scratch {
     si: Vec<Seg>,
     sj: Vec<Seg>,
     iv: Vec<(f64, f64)>,
+    meets: Meetings,
 }
 
 /// The shared length of units i and j whose boundaries cross (see the
@@ -209,17 +225,25 @@ fn pair(
     p.segments_meeting(j, &wi, &mut s.sj);
     let mut touch = Touch::default();
     let to_j = SegIndex::new(&s.sj, s.si.len());
-    let mut length = covered(&s.si, &s.sj, &to_j, tol, metric, &mut touch, &mut s.iv);
+    s.meets.clear();
+    let mut length = covered(&s.si, &s.sj, &to_j, tol, metric, &mut touch, &mut s.iv, Some(&mut s.meets));
     if tol > 0.0 && touch.contact {
         let to_i = SegIndex::new(&s.si, s.sj.len());
-        let other = covered(&s.sj, &s.si, &to_i, tol, metric, &mut touch, &mut s.iv);
+        let other = covered(&s.sj, &s.si, &to_i, tol, metric, &mut touch, &mut s.iv, None);
         length = 0.5 * (length + other);
     }
     let mut contact = touch.contact;
     let mut rook = if tol == 0.0 { length > 0.0 } else { length > tol };
-    if touch.crossed {
-        // crossing boundaries: the units overlap, neighbours under both
-        // rules, sharing the boundary within the overlap
+    // boundaries that touch without crossing may still bound an overlap (two
+    // boxes overlapping along a common edge, a unit inside another touching
+    // its boundary): then one boundary runs into the other unit
+    let overlapping = touch.crossed
+        || (touch.contact
+            && (enters(&s.si, &mut s.meets.a, &mut Other::new(Inside::new(p, j, bj), &s.sj, Some(&to_j)))
+                || enters(&s.sj, &mut s.meets.b, &mut Other::new(Inside::new(p, i, bi), &s.si, None))));
+    if overlapping {
+        // the units overlap: neighbours under both rules, sharing the
+        // boundary within the overlap
         length = length.max(overlap_length(p, i, j, s, metric));
         rook = length > 0.0;
     }
@@ -461,6 +485,30 @@ pub fn cliff_ord(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn boxes(b: &[[f64; 4]]) -> (Vec<f64>, Vec<i64>, Vec<i64>, Vec<i64>) {
+        let coords = b.iter().flat_map(|&[x0, y0, x1, y1]| [x0, y0, x1, y0, x1, y1, x0, y1, x0, y0]).collect();
+        let offsets: Vec<i64> = (0..=b.len() as i64).collect();
+        (coords, offsets.iter().map(|k| 5 * k).collect(), offsets.clone(), offsets)
+    }
+
+    #[test]
+    fn overlaps_whose_boundaries_only_touch() {
+        // lengths by hand: the overlap [1, 2] x [0, 2] has perimeter 6; a box inside
+        // touching the other's bottom shares its perimeter 4; boxes side by side share 1
+        for (b, want) in [
+            ([[0., 0., 2., 2.], [1., 0., 3., 2.]], 6.0),
+            ([[0., 0., 10., 10.], [2., 0., 3., 1.]], 4.0),
+            ([[0., 0., 1., 1.], [1., 0., 2., 1.]], 1.0),
+        ] {
+            let (c, r, p, u) = boxes(&b);
+            let polys = Polygons::new(&c, &r, &p, &u).unwrap();
+            for tol in [0.0, 1e-9] {
+                let got = contiguity(&polys, Rule::Rook, tol, Metric::Euclidean, &Guard::unlimited()).unwrap();
+                assert_eq!(got.graph.view().data(), &[want, want], "{b:?} {tol}");
+            }
+        }
+    }
 
     #[test]
     fn cliff_ord_weights_in_any_frame() {

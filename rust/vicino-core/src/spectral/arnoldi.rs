@@ -241,7 +241,8 @@ pub fn real_end(a: CsrRef<'_>, largest: bool, tol: f64, max_products: usize, gua
         if first_real.is_none_or(|j| j >= m / 2) {
             // the leftmost half are all complex: once they have converged the
             // smallest real eigenvalue is known to lie inside the spectrum
-            let half = &ritz[..m / 2];
+            // (a basis that closed early holds fewer Ritz values)
+            let half = &ritz[..(m / 2).min(ritz.len())];
             if size < m || half.iter().all(|&(re, im)| residual(re, im) <= tol * scale) {
                 let (re, im) = half[0];
                 return Err(Error::NoRealEigenvalue {

@@ -50,7 +50,7 @@ mod lanczos;
 
 use crate::csr::{Csr, CsrRef};
 use crate::error::{Error, Result};
-use crate::frame::{moderate, times_pow2};
+use crate::frame::{moderate, pow2_exponent, times_pow2};
 use crate::guard::Guard;
 use crate::lag::lag_unchecked;
 
@@ -108,6 +108,11 @@ const POWER_TOL: f64 = 1e-12;
 fn constant(v: &[f64]) -> Option<f64> {
     let (lo, hi) = v.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
     (hi - lo <= 1e-15 * hi.abs()).then_some(hi)
+}
+
+/// The constant row (or column) sum of `w`, if there is one.
+fn constant_sums(w: CsrRef<'_>) -> Option<f64> {
+    [w.row_sums(), w.col_sums()].iter().find_map(|s| constant(s))
 }
 
 fn dot(a: &[f64], b: &[f64]) -> f64 {
@@ -398,6 +403,64 @@ fn dense_of(w: CsrRef<'_>) -> Vec<f64> {
     a
 }
 
+/// A block brought to moderate weights without changing its eigenvalues:
+/// a diagonal similarity D B D^-1 by powers of two (exact), chosen by
+/// max-balancing the exponents (Osborne-style sweeps on the largest
+/// exponent of each row against that of its column, in integer log2), then
+/// divided by a power of two near its largest weight. Returns the block and
+/// e such that its eigenvalues times 2^e are those of `b`. Weights spanning
+/// more than the range of floating point (1e300 beside 1e-300 on one cycle)
+/// would otherwise underflow to 0 beside the largest, and the block's
+/// radius with them.
+fn tame(b: Csr) -> (Csr, i32) {
+    let v = b.view();
+    let n = v.n();
+    let exps = |data: &[f64]| data.iter().map(|&x| i64::from(pow2_exponent(x))).collect::<Vec<_>>();
+    let (lo, hi) = v.data().iter().fold((i32::MAX, i32::MIN), |(l, h), &x| {
+        let e = pow2_exponent(x);
+        (l.min(e), h.max(e))
+    });
+    let mut g = vec![0i64; n];
+    if i64::from(hi) - i64::from(lo) > 64 {
+        let t = v.transpose();
+        let tv = t.view();
+        let (le, lt) = (exps(v.data()), exps(tv.data()));
+        let (ip, ix, tp, tx) = (v.indptr(), v.indices(), tv.indptr(), tv.indices());
+        for _ in 0..200 {
+            let mut moved = false;
+            for i in 0..n {
+                let row = ip[i] as usize..ip[i + 1] as usize;
+                let col = tp[i] as usize..tp[i + 1] as usize;
+                let r = row.filter(|&k| ix[k] as usize != i).map(|k| le[k] - g[ix[k] as usize]).max();
+                let c = col.filter(|&k| tx[k] as usize != i).map(|k| lt[k] + g[tx[k] as usize]).max();
+                if let (Some(r), Some(c)) = (r, c) {
+                    let want = (c - r).div_euclid(2);
+                    if (want - g[i]).abs() > 1 {
+                        g[i] = want;
+                        moved = true;
+                    }
+                }
+            }
+            if !moved {
+                break;
+            }
+        }
+    }
+    let (ip, ix) = (v.indptr(), v.indices());
+    let mut data = v.data().to_vec();
+    for i in 0..n {
+        for k in ip[i] as usize..ip[i + 1] as usize {
+            let shift = (g[i] - g[ix[k] as usize]).clamp(-4200, 4200) as i32;
+            data[k] = times_pow2(data[k], shift);
+        }
+    }
+    let balanced = v.with_data(data);
+    match moderate(balanced.view()) {
+        (Some(m), e) => (m, e),
+        (None, _) => (balanced, 0),
+    }
+}
+
 /// Whether a block suits the dense route: its weights within 10^40 of each
 /// other. A dense solver's error is relative to the largest weight, so it
 /// would lose the eigenvalues of faint cycles beside strong links, which the
@@ -459,12 +522,17 @@ fn general(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
         let (value, err, it, method) = match block {
             Block::Single(x) => (x, 0.0, 0, SpectralMethod::Dense),
             Block::Cycle { len, g } => (g, 4.0 * len as f64 * f64::EPSILON * g, 0, SpectralMethod::Cycle),
-            Block::Matrix(b) if dense_suits(b.view()) => {
-                let ev = dense_eigenvalues(b.view())?;
-                let rho = ev.iter().fold(0.0f64, |r, &(re, im)| r.max(re.hypot(im)));
-                (rho, dense_error(b.view()), 0, SpectralMethod::Dense)
+            Block::Matrix(b) => {
+                let (b, e) = tame(b);
+                let (rho, err, it, method) = if dense_suits(b.view()) {
+                    let ev = dense_eigenvalues(b.view())?;
+                    let rho = ev.iter().fold(0.0f64, |r, &(re, im)| r.max(re.hypot(im)));
+                    (rho, dense_error(b.view()), 0, SpectralMethod::Dense)
+                } else {
+                    large_block_radius(b.view(), times_pow2(best, -e), guard)?
+                };
+                (times_pow2(rho, e), times_pow2(err, e), it, method)
             }
-            Block::Matrix(b) => large_block_radius(b.view(), best, guard)?,
         };
         iterations += it;
         if value > best {
@@ -496,6 +564,11 @@ pub fn spectral_radius(w: CsrRef<'_>, guard: &Guard) -> Result<SpectralRadius> {
         return Err(Error::NoWeight { what: "the largest eigenvalue" });
     }
     if let (Some(scaled), e) = moderate(w) {
+        if symmetric_form(scaled.view()).is_none() && constant_sums(scaled.view()).is_none() {
+            // block by block, each brought to moderate weights on its own (a
+            // faint cycle beside strong links would underflow here)
+            return general(w, guard);
+        }
         let r = spectral_radius(scaled.view(), guard)?;
         return Ok(SpectralRadius { value: times_pow2(r.value, e), error: times_pow2(r.error, e), ..r });
     }
@@ -633,16 +706,19 @@ fn general_bounds(w: CsrRef<'_>, constant: Option<f64>, tol: f64, guard: &Guard)
                 lo.keep(End(low, err, SpectralMethod::Cycle), true);
                 hi.keep(End(g, err, SpectralMethod::Cycle), false);
             }
-            Block::Matrix(b) if dense_suits(b.view()) => {
-                let (l, h) = dense_real_ends(b.view())?;
-                lo.keep(l, true);
-                hi.keep(h, false);
-            }
             Block::Matrix(b) => {
-                let (l, h, spent) = large_real_ends(b.view(), hi.0, tol, guard)?;
-                products += spent;
-                lo.keep(l, true);
-                hi.keep(h, false);
+                let (b, e) = tame(b);
+                let back = |x: End| End(times_pow2(x.0, e), times_pow2(x.1, e), x.2);
+                if dense_suits(b.view()) {
+                    let (l, h) = dense_real_ends(b.view())?;
+                    lo.keep(back(l), true);
+                    hi.keep(back(h), false);
+                } else {
+                    let (l, h, spent) = large_real_ends(b.view(), times_pow2(hi.0, -e), tol, guard)?;
+                    products += spent;
+                    lo.keep(back(l), true);
+                    hi.keep(back(h), false);
+                }
             }
         }
         Ok(())
@@ -710,18 +786,6 @@ pub fn eigenvalue_bounds(w: CsrRef<'_>, tol: f64, guard: &Guard) -> Result<Eigen
     if !(top > 0.0) {
         return Err(Error::NoWeight { what: "the eigenvalue bounds" });
     }
-    if let (Some(scaled), e) = moderate(w) {
-        let b = eigenvalue_bounds(scaled.view(), tol, guard)?;
-        let back = |x: f64| times_pow2(x, e);
-        return Ok(EigenvalueBounds {
-            min: back(b.min),
-            min_error: back(b.min_error),
-            max: back(b.max),
-            max_error: back(b.max_error),
-            ..b
-        });
-    }
-    let tol = tol.max(4.0 * f64::EPSILON);
     if bipartite(w) {
         // S W S = -W for S = diag(+-1) by side: the real eigenvalues come in pairs -x, x
         let r = spectral_radius(w, guard)?;
@@ -735,6 +799,22 @@ pub fn eigenvalue_bounds(w: CsrRef<'_>, tol: f64, guard: &Guard) -> Result<Eigen
             products: r.iterations,
         });
     }
+    if let (Some(scaled), e) = moderate(w) {
+        let sv = scaled.view();
+        if symmetric_form(sv).is_none() && constant_sums(sv).is_none() {
+            return general_bounds(w, None, tol.max(4.0 * f64::EPSILON), guard);
+        }
+        let b = eigenvalue_bounds(scaled.view(), tol, guard)?;
+        let back = |x: f64| times_pow2(x, e);
+        return Ok(EigenvalueBounds {
+            min: back(b.min),
+            min_error: back(b.min_error),
+            max: back(b.max),
+            max_error: back(b.max_error),
+            ..b
+        });
+    }
+    let tol = tol.max(4.0 * f64::EPSILON);
     // constant row (or column) sums: the largest eigenvalue is that sum (Perron-Frobenius)
     let constant = [w.row_sums(), w.col_sums()].iter().find_map(|s| constant(s));
     match symmetric_form(w) {

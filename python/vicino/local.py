@@ -17,6 +17,7 @@ it is there.
 from __future__ import annotations
 
 import html
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
@@ -130,7 +131,10 @@ def _html(r: Any, what: str) -> str:
 class _LocalResult:
     """What local results share: read-only arrays, ``n``, and their text and HTML views."""
 
+    # given by each result: its ids, its title and its table (one row per unit, indexed by id)
     ids: pd.Index
+    _title: Callable[[], str]
+    table: Callable[[], pd.DataFrame]
 
     def __post_init__(self) -> None:
         _read_only(self)
@@ -139,13 +143,6 @@ class _LocalResult:
     def n(self) -> int:
         """Number of units."""
         return len(self.ids)
-
-    def _title(self) -> str:
-        raise NotImplementedError
-
-    def table(self) -> pd.DataFrame:
-        """One row per unit, indexed by id."""
-        raise NotImplementedError
 
     def __str__(self) -> str:
         lines = _summary_lines(self, self._title())

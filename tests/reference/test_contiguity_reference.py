@@ -7,8 +7,9 @@ References used here:
   for rook contacts, ``length(intersection(a.boundary, b.boundary))`` for
   shared border lengths, ``length`` for perimeters, ``centroid`` and
   ``distance`` for Cliff-Ord distances;
-* exact rational arithmetic (``fractions.Fraction``) where GEOS itself is
-  not exact (nearly collinear segments after densification);
+* exact rational arithmetic (floats as exact integers times 2**-1100,
+  checked against ``fractions.Fraction``) where GEOS itself is not exact
+  (nearly collinear segments after densification);
 * networkx lattice graphs (``grid_2d_graph`` = rook lattice,
   ``strong_product`` of two paths = queen lattice);
 * the haversine formula (Sinnott 1984) on the IUGG mean sphere
@@ -84,10 +85,35 @@ def segments(geom) -> np.ndarray:
     return np.concatenate(out) if out else np.zeros((0, 2, 2))
 
 
+def _exact(v) -> int:
+    """A finite float as the exact integer v * 2**1100 (every float is a whole multiple of 2**-1074)."""
+    n, d = float(v).as_integer_ratio()  # d is a power of two
+    return n << (1100 - (d.bit_length() - 1))
+
+
 def _orient_exact(p, q, r) -> int:
-    px, py, qx, qy, rx, ry = (Fraction(float(v)) for v in (*p, *q, *r))
+    px, py, qx, qy, rx, ry = (_exact(v) for v in (*p, *q, *r))
     v = (qx - px) * (ry - py) - (qy - py) * (rx - px)
     return (v > 0) - (v < 0)
+
+
+def test_exact_helpers_agree_with_fractions():
+    """The scaled-integer orientation and crossing tests give what Fraction arithmetic gives."""
+    rng = np.random.default_rng(7)
+    base = rng.uniform(-1, 1, (400, 6))
+    tricky = np.array([0.0, 5e-324, -5e-324, 1e-300, 0.1, 1 / 3, 2.0**-1000, -0.75])
+    base[:100] = rng.choice(tricky, (100, 6))
+    base[100:200, 4:] = base[100:200, :2] + 0.5 * (base[100:200, 2:4] - base[100:200, :2])  # near collinear
+    for p0, p1, q0, q1, r0, r1 in base:
+        f = [Fraction(float(v)) for v in (p0, p1, q0, q1, r0, r1)]
+        v = (f[2] - f[0]) * (f[5] - f[1]) - (f[3] - f[1]) * (f[4] - f[0])
+        # reference: Python's exact fractions.Fraction arithmetic
+        assert _orient_exact((p0, p1), (q0, q1), (r0, r1)) == (v > 0) - (v < 0)
+        px, py, ax, ay, bx, by = f
+        crossed = (ay > py) != (by > py) and px < ax + (py - ay) * (bx - ax) / (by - ay)
+        assert _inside_exact_one((p0, p1), (q0, q1), (r0, r1))[1] == crossed  # reference: Fraction
+    # reference: exact identity, 2**-1074 is the smallest positive float
+    assert _exact(5e-324) == 2**26 and _exact(1.0) == 2**1100 and _exact(-0.5) == -(2**1099)
 
 
 def exact_rook(geoms, candidates) -> set[tuple[int, int]]:
@@ -125,17 +151,41 @@ def exact_rook(geoms, candidates) -> set[tuple[int, int]]:
     return out
 
 
+def _inside_exact_one(p, a, b) -> tuple[bool, bool]:
+    """(on the segment a-b, crossed by the ray from p to +x): exact rational arithmetic."""
+    px, py, ax, ay, bx, by = (_exact(v) for v in (*p, *a, *b))
+    cross = (bx - ax) * (py - ay) - (by - ay) * (px - ax)
+    on = cross == 0 and min(ax, bx) <= px <= max(ax, bx) and min(ay, by) <= py <= max(ay, by)
+    # px < ax + (py - ay) (bx - ax) / (by - ay), multiplied through by (by - ay)
+    lhs, rhs = (px - ax) * (by - ay), (py - ay) * (bx - ax)
+    crossed = (ay > py) != (by > py) and (lhs < rhs if by > ay else lhs > rhs)
+    return bool(on), bool(crossed)
+
+
 def _inside_exact(p, segs) -> int:
-    """1 when p lies strictly inside the rings of `segs`, 0 on them, -1 outside: exact
-    rational arithmetic (orientation for the boundary, crossing number for the inside)."""
-    px, py = Fraction(float(p[0])), Fraction(float(p[1]))
-    odd = False
-    for a, b in segs:
-        ax, ay, bx, by = (Fraction(float(v)) for v in (*a, *b))
-        cross = (bx - ax) * (py - ay) - (by - ay) * (px - ax)
-        if cross == 0 and min(ax, bx) <= px <= max(ax, bx) and min(ay, by) <= py <= max(ay, by):
+    """1 when p lies strictly inside the rings of `segs`, 0 on them, -1 outside.
+
+    Exact: orientation for the boundary, crossing number for the inside. Floats
+    decide only where their answer is certain (coordinates of order one, float
+    error below 1e-15 against a margin of 1e-9); every segment within the margin
+    is decided in exact rational arithmetic.
+    """
+    a, b = segs[:, 0], segs[:, 1]
+    px, py = float(p[0]), float(p[1])
+    cross = (b[:, 0] - a[:, 0]) * (py - a[:, 1]) - (b[:, 1] - a[:, 1]) * (px - a[:, 0])
+    lo, hi = np.minimum(a, b) - 1e-9, np.maximum(a, b) + 1e-9
+    in_box = (lo[:, 0] <= px) & (px <= hi[:, 0]) & (lo[:, 1] <= py) & (py <= hi[:, 1])
+    doubtful = (np.abs(cross) <= 1e-9) & in_box
+    straddle = (a[:, 1] > py) != (b[:, 1] > py)  # exact: float comparisons
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xc = a[:, 0] + (py - a[:, 1]) * (b[:, 0] - a[:, 0]) / (b[:, 1] - a[:, 1])
+    near = straddle & ~(np.abs(px - xc) > 1e-9)
+    odd = bool(np.count_nonzero(straddle & ~near & (px < xc)) % 2)
+    for s in np.nonzero(doubtful | near)[0]:
+        on, crossed = _inside_exact_one(p, a[s], b[s])
+        if on:
             return 0
-        if (ay > py) != (by > py) and px < ax + (py - ay) * (bx - ax) / (by - ay):
+        if near[s] and crossed:
             odd = not odd
     return 1 if odd else -1
 
@@ -242,8 +292,8 @@ def test_densified_voronoi_t_junctions(n, seed, step):
     # not always see it, exact rational arithmetic does.
     overlapping = {(i, j) for i, j in queen if shapely.relate(dense[i], dense[j])[0] != "F"}
     inside = exact_vertex_inside(dense, queen)
-    assert exact <= rook <= queen  # reference: exact Fraction orientation tests; shapely intersects
-    # reference: shapely relate (interiors intersect), exact Fraction point-in-polygon tests
+    assert exact <= rook <= queen  # reference: exact rational orientation tests; shapely intersects
+    # reference: shapely relate (interiors intersect), exact rational point-in-polygon tests
     assert rook <= exact | overlapping | inside
     assert exact <= shapely_rook(
         dense

@@ -12,18 +12,9 @@ distributed = pytest.importorskip("distributed")
 vd = pytest.importorskip("vicino.dask")
 
 
-@pytest.fixture(scope="module")
-def client():
-    import dask
-
-    cluster = distributed.LocalCluster(
-        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=None, silence_logs=50
-    )
-    c = distributed.Client(cluster)
-    with dask.config.set({"dataframe.shuffle.method": "tasks"}):
-        yield c
-    c.close()
-    cluster.close()
+@pytest.fixture
+def client(dask_client):
+    return dask_client
 
 
 def test_k_nearest_within_distance_and_moran_against_scipy_and_numpy(client):

@@ -159,7 +159,7 @@ def test_large_rook_lattice_matches_ord_1975_and_eigsh():
 
 
 def test_large_binary_queen_lattice_uses_lanczos_for_both_ends():
-    rows, cols = 100, 110
+    rows, cols = 60, 70
     a = lattice(rows, cols, queen=True)
     b = vicino.from_matrix(a).eigenvalue_bounds(tol=1e-10)
     assert b.min_method == b.max_method == "Lanczos"
@@ -243,7 +243,7 @@ def test_no_real_eigenvalue_in_reach_is_a_clear_convergence_error():
 
 
 def test_real_eigenvalue_inside_the_spectrum_of_a_smaller_block_is_found_densely():
-    a = c3_kron_path(250)  # 750 units
+    a = c3_kron_path(200)  # 600 units
     lo, hi = real_ends(a.toarray())  # reference: numpy.linalg.eigvals
     b = vicino.from_matrix(a).eigenvalue_bounds()
     assert b.lambda_min == pytest.approx(lo, abs=1e-9)
@@ -254,10 +254,11 @@ def test_real_eigenvalue_inside_the_spectrum_of_a_smaller_block_is_found_densely
 @pytest.mark.parametrize("seed", [0, 1, 2])
 @pytest.mark.parametrize("row", [False, True])
 def test_directed_cycle_with_random_chords_converges(seed, row):
-    # a directed cycle of 600 units plus five random chords, binary or row-standardized:
+    # a directed cycle of 400 units plus five random chords, binary or row-standardized:
     # hundreds of eigenvalues near the unit circle, complex ones left of the smallest real
-    # one, where restarted Arnoldi used to run out of products
-    n = 600
+    # one, where restarted Arnoldi used to run out of products (seeds 0 and 2 end in
+    # the dense fallback, seed 1 in Arnoldi)
+    n = 400
     rng = np.random.default_rng(seed)
     src = np.concatenate([np.arange(n), rng.integers(0, n, 5)])
     dst = np.concatenate([(np.arange(n) + 1) % n, rng.integers(0, n, 5)])

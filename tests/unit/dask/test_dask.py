@@ -20,19 +20,9 @@ distributed = pytest.importorskip("distributed")
 vd = pytest.importorskip("vicino.dask")
 
 
-@pytest.fixture(scope="module")
-def client():
-    cluster = distributed.LocalCluster(
-        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=None, silence_logs=50
-    )
-    c = distributed.Client(cluster)
-    import dask
-
-    # small data: the task-based shuffle starts faster than the peer-to-peer one (the default for large data)
-    with dask.config.set({"dataframe.shuffle.method": "tasks"}):
-        yield c
-    c.close()
-    cluster.close()
+@pytest.fixture
+def client(dask_client):
+    return dask_client
 
 
 def quiet(fn, *args, **kwargs):
@@ -149,12 +139,14 @@ def test_contiguity_queen_rook_border_length_tolerance(client):
 
 def test_lag_standardize_and_moran_equal_in_memory(client):
     df = points(500, seed=4)
-    table = vd.k_nearest(dd.from_pandas(df, npartitions=2), 6, npartitions=6, check_ids=False)
+    # persisted, as the docs advise for a table used more than once: each use below
+    # would otherwise build the links again
+    table = vd.k_nearest(dd.from_pandas(df, npartitions=2), 6, npartitions=6, check_ids=False).persist()
     ref = quiet(vicino.k_nearest, df, 6)
     rng = np.random.default_rng(5)
     v = pd.Series(df["x"].to_numpy() * 3 + rng.normal(size=len(df)), index=df.index, name="price")
     shuffled = dd.from_pandas(v.sample(frac=1.0, random_state=1), npartitions=3)  # any order, any partitions
-    row = table.standardize("row")
+    row = table.standardize("row").persist()
     same(row, ref.standardize("row"))
     lagged = vd.lag(shuffled, row).compute()
     assert lagged.name == "price"

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import contextlib
+import io
 import re
 import subprocess
 import sys
@@ -17,9 +19,18 @@ from vicino import demo
 ROOT = Path(__file__).resolve().parents[3]
 
 
-def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
-    tables = demo.run(tmp_path, permutations=99)
-    out = capsys.readouterr().out
+@pytest.fixture(scope="module")
+def demo_run(tmp_path_factory):
+    """One run of the demo (99 permutations) shared by the tests that only read what it made."""
+    folder = tmp_path_factory.mktemp("demo")
+    printed = io.StringIO()
+    with contextlib.redirect_stdout(printed):
+        tables = demo.run(folder, permutations=99)
+    return folder, tables, printed.getvalue()
+
+
+def test_demo_writes_its_tables_and_finds_the_remote_islands(demo_run):
+    out_dir, tables, out = demo_run
     for name in (
         "settlements",
         "neighbour_counts",
@@ -31,7 +42,7 @@ def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
         "lags",
         "moran",
     ):
-        assert (tmp_path / f"{name}.csv").stat().st_size > 0
+        assert (out_dir / f"{name}.csv").stat().st_size > 0
     places = tables["settlements"]
     # reference: numpy brute force on the generated coordinates; a settlement is an
     # island under the 15 km band when no other one lies within 15 km
@@ -44,7 +55,7 @@ def test_demo_writes_its_tables_and_finds_the_remote_islands(tmp_path, capsys):
     assert int(tables["candidates"].loc["within 15 km", "islands"]) == len(expected_islands)
     # reference: the k-nearest candidates leave nobody out (k < n)  # common practice
     assert int(tables["candidates"].loc["6 nearest", "islands"]) == 0
-    csv = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    csv = pd.read_csv(out_dir / "moran.csv", index_col=0)
     assert list(csv.index) == [
         "6 nearest",
         "10 nearest",
@@ -71,11 +82,10 @@ def _reference_adjacency(shapes: np.ndarray):
     return i[keep], j[keep]
 
 
-def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
+def test_district_neighbour_counts_match_shapely(demo_run):
     import shapely
 
-    tables = demo.run(tmp_path, permutations=19)
-    capsys.readouterr()
+    out_dir, tables, out = demo_run
     places = tables["settlements"]
     shapes = demo.districts(7)
     assert list(shapes.index) == list(places.index)
@@ -86,11 +96,11 @@ def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
     # reference: shapely DE-9IM relate: interiors apart, boundaries meeting in a line
     shared_line = shapely.relate_pattern(g[i], g[j], "F***1****")
     rook = np.bincount(i[shared_line], minlength=n)
-    counts = pd.read_csv(tmp_path / "district_counts.csv", index_col=0)
+    counts = pd.read_csv(out_dir / "district_counts.csv", index_col=0)
     assert list(counts.index) == list(places.index)
     np.testing.assert_array_equal(counts["queen"].to_numpy(), queen)
     np.testing.assert_array_equal(counts["rook"].to_numpy(), rook)
-    summary = pd.read_csv(tmp_path / "contiguity.csv", index_col=0)
+    summary = pd.read_csv(out_dir / "contiguity.csv", index_col=0)
     assert list(summary.index) == ["queen", "rook"]
     for rule, ref in (("queen", queen), ("rook", rook)):
         row = summary.loc[rule]
@@ -116,11 +126,10 @@ def test_district_neighbour_counts_match_shapely(tmp_path, capsys):
     assert shapely.contains(g, points).all()  # reference: shapely contains (true for the demo seed)
 
 
-def test_islets_are_exactly_the_skerries_and_islands(tmp_path, capsys):
+def test_islets_are_exactly_the_skerries_and_islands(demo_run):
     import shapely
 
-    tables = demo.run(tmp_path, permutations=19)
-    out = capsys.readouterr().out
+    out_dir, tables, out = demo_run
     places = tables["settlements"]
     g = demo.districts(7).to_numpy()
     i, _ = _reference_adjacency(g)
@@ -137,11 +146,10 @@ def test_islets_are_exactly_the_skerries_and_islands(tmp_path, capsys):
     assert {name for name in skerries if name in block} == skerries
 
 
-def test_moran_table_has_the_contiguity_rows(tmp_path, capsys):
-    tables = demo.run(tmp_path, permutations=19)
-    capsys.readouterr()
+def test_moran_table_has_the_contiguity_rows(demo_run):
+    out_dir, tables, out = demo_run
     places = tables["settlements"]
-    moran_table = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    moran_table = pd.read_csv(out_dir / "moran.csv", index_col=0)
     assert {"queen", "rook", "Cliff-Ord"} <= set(moran_table.index)
     g = demo.districts(7).to_numpy()
     i, j = _reference_adjacency(g)
@@ -177,10 +185,9 @@ def _audit_rows(out: str) -> dict[str, list[str]]:
     }
 
 
-def test_demo_audits_every_candidate(tmp_path, capsys):
+def test_demo_audits_every_candidate(demo_run):
     nx = pytest.importorskip("networkx")
-    tables = demo.run(tmp_path, permutations=19)
-    out = capsys.readouterr().out
+    out_dir, tables, out = demo_run
     places = tables["settlements"]
     n = len(places)
     rows = _audit_rows(out)
@@ -200,7 +207,7 @@ def test_demo_audits_every_candidate(tmp_path, capsys):
         assert rows[name][:4] == [str(islands), str(groups), "islands", "components"], rows[name]
     assert rows["6 nearest"][:2] == ["0", "1"]  # reference: k-nearest leaves nobody out (k < n)
     # every audit, the repaired one too, is written out, and uses the four levels only
-    audit = pd.read_csv(tmp_path / "audit.csv")
+    audit = pd.read_csv(out_dir / "audit.csv")
     assert list(audit["weights"].unique()) == list(tables["moran"].index)
     assert set(audit["level"]) <= {"problem", "warning", "note", "ok"}
     found = audit.set_index(["weights", "check"])["level"]
@@ -216,12 +223,11 @@ def test_demo_audits_every_candidate(tmp_path, capsys):
     assert "neighbour counts:" in printed[0] and "neighbour counts:" in printed[1]
 
 
-def test_repaired_queen_has_no_islands_and_one_component(tmp_path, capsys):
+def test_repaired_queen_has_no_islands_and_one_component(demo_run):
     nx = pytest.importorskip("networkx")
     import shapely
 
-    tables = demo.run(tmp_path, permutations=19)
-    capsys.readouterr()
+    out_dir, tables, out = demo_run
     places = tables["settlements"]
     shapes = demo.districts(7)
     n = len(shapes)
@@ -239,7 +245,7 @@ def test_repaired_queen_has_no_islands_and_one_component(tmp_path, capsys):
     assert min(dict(first.degree()).values()) > 0
     assert len(list(nx.connected_components(first))) > 1
     # the repairs table lists exactly the links the repair added to the shapely adjacency
-    repairs = pd.read_csv(tmp_path / "repairs.csv", index_col=0)
+    repairs = pd.read_csv(out_dir / "repairs.csv", index_col=0)
     pos = places.index.get_indexer
     a, b = pos(repairs["district"]), pos(repairs["linked_to"])
     assert (a >= 0).all() and (b >= 0).all()
@@ -276,17 +282,16 @@ def test_repaired_queen_has_no_islands_and_one_component(tmp_path, capsys):
     w /= w.sum(axis=1, keepdims=True)
     z = places["cistern_share"].to_numpy() - places["cistern_share"].mean()
     expected = n / w.sum() * (z @ w @ z) / (z @ z)
-    moran_table = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    moran_table = pd.read_csv(out_dir / "moran.csv", index_col=0)
     assert moran_table.loc["queen, repaired", "I"] == pytest.approx(expected, rel=1e-10)
 
 
-def test_demo_saves_plots_with_matplotlib(tmp_path, capsys):
+def test_demo_saves_plots_with_matplotlib(demo_run):
     pytest.importorskip("matplotlib")
-    demo.run(tmp_path, permutations=19)
-    out = capsys.readouterr().out
+    out_dir, tables, out = demo_run
     for name in ("queen_counts.png", "queen_links.png", "queen_repaired_links.png"):
         # reference: the PNG signature (ISO/IEC 15948)
-        assert (tmp_path / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+        assert (out_dir / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         assert name in out
 
 
@@ -310,14 +315,13 @@ def test_demo_without_matplotlib_runs_whole_and_says_why_there_are_no_pictures(t
     assert (tmp_path / "repairs.csv").exists() and (tmp_path / "weights" / "queen_repaired.mtx").exists()
 
 
-def test_demo_writes_the_weights_of_every_candidate_for_r_octave_and_scipy(tmp_path, capsys):
+def test_demo_writes_the_weights_of_every_candidate_for_r_octave_and_scipy(demo_run):
     import scipy.io
     import scipy.sparse as sp
 
-    tables = demo.run(tmp_path, permutations=19)
-    out = capsys.readouterr().out
+    out_dir, tables, out = demo_run
     places = tables["settlements"]
-    folder = tmp_path / demo.WEIGHTS_DIR
+    folder = out_dir / demo.WEIGHTS_DIR
     stems = [demo.file_stem(name) for name in tables["moran"].index]
     assert stems == ["6_nearest", "10_nearest", "within_15_km", "queen", "rook", "cliff_ord", "queen_repaired"]
     n = len(places)
@@ -357,9 +361,8 @@ def test_demo_writes_the_weights_of_every_candidate_for_r_octave_and_scipy(tmp_p
         assert (folder / name).exists()
 
 
-def test_moran_labels_spell_out_the_inference(tmp_path, capsys):
-    tables = demo.run(tmp_path, permutations=19)
-    out = capsys.readouterr().out
+def test_moran_labels_spell_out_the_inference(demo_run):
+    out_dir, tables, out = demo_run
     labels = ["z, randomization", "p, randomization", "p, permutation"]
     assert [c for c in tables["moran"].columns if c in labels] == labels
     section = out.split("6. Moran's I", 1)[1].split("Reading the results", 1)[0]
@@ -368,7 +371,7 @@ def test_moran_labels_spell_out_the_inference(tmp_path, capsys):
     assert "(rand)" not in out and "(perm)" not in out
     n = len(tables["settlements"])
     assert f"E[I] = -1/(n - 1) = {-1 / (n - 1):.4g}" in section  # common practice: E[I] = -1/(n - 1)
-    csv = pd.read_csv(tmp_path / "moran.csv", index_col=0)
+    csv = pd.read_csv(out_dir / "moran.csv", index_col=0)
     assert labels == [c for c in csv.columns if c in labels]
 
 
@@ -462,9 +465,8 @@ def test_readme_audit_section_runs_and_its_shown_output_is_true():
     assert (np.diff(m.indptr) > 0).all()  # reference: scipy row counts
 
 
-def test_demo_section_seven_intervals_trade_network_and_local_pictures(tmp_path, capsys):
-    tables = demo.run(tmp_path, permutations=99)
-    out = capsys.readouterr().out
+def test_demo_section_seven_intervals_trade_network_and_local_pictures(demo_run):
+    out_dir, tables, out = demo_run
     assert "exogenous to the outcome" in out  # the trade network's caution is printed
     more = tables["more_candidates"]
     assert {"inverse distance, 6 nearest", "triangular kernel, adaptive 10", "trade flows"} <= set(more.index)
@@ -477,6 +479,6 @@ def test_demo_section_seven_intervals_trade_network_and_local_pictures(tmp_path,
     real = real[np.abs(real.imag) < 1e-9].real
     assert more.loc["trade flows", "rho from"] == pytest.approx(1 / real.min(), rel=1e-6)
     assert more.loc["trade flows", "rho to"] == pytest.approx(1 / real.max(), rel=1e-6)
-    assert (tmp_path / "moran_scatterplot.png").stat().st_size > 0
-    assert (tmp_path / "local_moran_clusters.png").stat().st_size > 0
+    assert (out_dir / "moran_scatterplot.png").stat().st_size > 0
+    assert (out_dir / "local_moran_clusters.png").stat().st_size > 0
     assert len(tables["local_moran"]) == len(places)

@@ -97,25 +97,6 @@ def _orient_exact(p, q, r) -> int:
     return (v > 0) - (v < 0)
 
 
-def test_exact_helpers_agree_with_fractions():
-    """The scaled-integer orientation and crossing tests give what Fraction arithmetic gives."""
-    rng = np.random.default_rng(7)
-    base = rng.uniform(-1, 1, (400, 6))
-    tricky = np.array([0.0, 5e-324, -5e-324, 1e-300, 0.1, 1 / 3, 2.0**-1000, -0.75])
-    base[:100] = rng.choice(tricky, (100, 6))
-    base[100:200, 4:] = base[100:200, :2] + 0.5 * (base[100:200, 2:4] - base[100:200, :2])  # near collinear
-    for p0, p1, q0, q1, r0, r1 in base:
-        f = [Fraction(float(v)) for v in (p0, p1, q0, q1, r0, r1)]
-        v = (f[2] - f[0]) * (f[5] - f[1]) - (f[3] - f[1]) * (f[4] - f[0])
-        # reference: Python's exact fractions.Fraction arithmetic
-        assert _orient_exact((p0, p1), (q0, q1), (r0, r1)) == (v > 0) - (v < 0)
-        px, py, ax, ay, bx, by = f
-        crossed = (ay > py) != (by > py) and px < ax + (py - ay) * (bx - ax) / (by - ay)
-        assert _inside_exact_one((p0, p1), (q0, q1), (r0, r1))[1] == crossed  # reference: Fraction
-    # reference: exact identity, 2**-1074 is the smallest positive float
-    assert _exact(5e-324) == 2**26 and _exact(1.0) == 2**1100 and _exact(-0.5) == -(2**1099)
-
-
 def exact_rook(geoms, candidates) -> set[tuple[int, int]]:
     """Pairs with two exactly collinear boundary segments overlapping in positive length.
 
@@ -154,8 +135,7 @@ def exact_rook(geoms, candidates) -> set[tuple[int, int]]:
 def _inside_exact_one(p, a, b) -> tuple[bool, bool]:
     """(on the segment a-b, crossed by the ray from p to +x): exact rational arithmetic."""
     px, py, ax, ay, bx, by = (_exact(v) for v in (*p, *a, *b))
-    cross = (bx - ax) * (py - ay) - (by - ay) * (px - ax)
-    on = cross == 0 and min(ax, bx) <= px <= max(ax, bx) and min(ay, by) <= py <= max(ay, by)
+    on = _orient_exact(a, b, p) == 0 and min(ax, bx) <= px <= max(ax, bx) and min(ay, by) <= py <= max(ay, by)
     # px < ax + (py - ay) (bx - ax) / (by - ay), multiplied through by (by - ay)
     lhs, rhs = (px - ax) * (by - ay), (py - ay) * (bx - ax)
     crossed = (ay > py) != (by > py) and (lhs < rhs if by > ay else lhs > rhs)
@@ -188,6 +168,25 @@ def _inside_exact(p, segs) -> int:
         if near[s] and crossed:
             odd = not odd
     return 1 if odd else -1
+
+
+def test_exact_helpers_agree_with_fractions():
+    """The scaled-integer orientation and crossing tests give what Fraction arithmetic gives."""
+    rng = np.random.default_rng(7)
+    base = rng.uniform(-1, 1, (400, 6))
+    tricky = np.array([0.0, 5e-324, -5e-324, 1e-300, 0.1, 1 / 3, 2.0**-1000, -0.75])
+    base[:100] = rng.choice(tricky, (100, 6))
+    base[100:200, 4:] = base[100:200, :2] + 0.5 * (base[100:200, 2:4] - base[100:200, :2])  # near collinear
+    for p0, p1, q0, q1, r0, r1 in base:
+        f = [Fraction(float(v)) for v in (p0, p1, q0, q1, r0, r1)]
+        v = (f[2] - f[0]) * (f[5] - f[1]) - (f[3] - f[1]) * (f[4] - f[0])
+        # reference: Python's exact fractions.Fraction arithmetic
+        assert _orient_exact((p0, p1), (q0, q1), (r0, r1)) == (v > 0) - (v < 0)
+        px, py, ax, ay, bx, by = f
+        crossed = (ay > py) != (by > py) and px < ax + (py - ay) * (bx - ax) / (by - ay)
+        assert _inside_exact_one((p0, p1), (q0, q1), (r0, r1))[1] == crossed  # reference: Fraction
+    # reference: exact identity, 2**-1074 is the smallest positive float
+    assert _exact(5e-324) == 2**26 and _exact(1.0) == 2**1100 and _exact(-0.5) == -(2**1099)
 
 
 def exact_vertex_inside(geoms, candidates) -> set[tuple[int, int]]:

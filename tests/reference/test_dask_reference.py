@@ -12,12 +12,7 @@ distributed = pytest.importorskip("distributed")
 vd = pytest.importorskip("vicino.dask")
 
 
-@pytest.fixture
-def client(dask_client):
-    return dask_client
-
-
-def test_k_nearest_within_distance_and_moran_against_scipy_and_numpy(client):
+def test_k_nearest_within_distance_and_moran_against_scipy_and_numpy(dask_client):
     rng = np.random.default_rng(11)
     n, k, r = 400, 5, 0.06
     xy = rng.random((n, 2))

@@ -20,11 +20,6 @@ distributed = pytest.importorskip("distributed")
 vd = pytest.importorskip("vicino.dask")
 
 
-@pytest.fixture
-def client(dask_client):
-    return dask_client
-
-
 def quiet(fn, *args, **kwargs):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", vicino.DuplicateLocationWarning)
@@ -61,7 +56,7 @@ def with_empty(df, sizes):
     return dd.from_delayed([dask.delayed(p.copy)() for p in parts], meta=df.iloc[:0], verify_meta=False)
 
 
-def test_k_nearest_equals_in_memory_with_duplicates_and_rounds(client):
+def test_k_nearest_equals_in_memory_with_duplicates_and_rounds(dask_client):
     df = points(600)
     for k, parts in ((4, 4), (9, 12)):  # 12 spatial partitions of ~50 units: halos cross partitions
         table = vd.k_nearest(dd.from_pandas(df, npartitions=3), k, npartitions=parts)
@@ -70,7 +65,7 @@ def test_k_nearest_equals_in_memory_with_duplicates_and_rounds(client):
         assert sum(table.halo_sizes()) > 0
 
 
-def test_k_nearest_empty_partitions_and_partitions_smaller_than_k(client):
+def test_k_nearest_empty_partitions_and_partitions_smaller_than_k(dask_client):
     df = points(120, seed=1)
     ddf = with_empty(df, [0, 50, 0, 3, 67, 0])  # input partitions kept: empty ones and one with 3 < k units
     table = vd.k_nearest(ddf, 6, partition=False, check_ids=False)
@@ -78,7 +73,7 @@ def test_k_nearest_empty_partitions_and_partitions_smaller_than_k(client):
     same(table, quiet(vicino.k_nearest, df, 6))
 
 
-def test_k_nearest_ties_on_a_lattice_go_to_the_lower_position(client):
+def test_k_nearest_ties_on_a_lattice_go_to_the_lower_position(dask_client):
     # a square lattice: every unit has 4 neighbours at one distance, ties broken by position
     g = np.arange(12.0)
     xy = np.array([(a, b) for a in g for b in g])
@@ -87,7 +82,7 @@ def test_k_nearest_ties_on_a_lattice_go_to_the_lower_position(client):
     same(table, vicino.k_nearest(df, 3))
 
 
-def test_k_nearest_great_circle_and_id_column(client):
+def test_k_nearest_great_circle_and_id_column(dask_client):
     rng = np.random.default_rng(3)
     df = pd.DataFrame(
         {
@@ -108,7 +103,7 @@ def test_k_nearest_great_circle_and_id_column(client):
     )
 
 
-def test_within_distance_islands_boundaries_and_empty_partitions(client):
+def test_within_distance_islands_boundaries_and_empty_partitions(dask_client):
     # a lattice at spacing 0.1 with radius 0.1: every link is exactly at the radius (inclusive), and
     # the spatial cuts fall between lattice rows
     g = np.arange(10) / 10
@@ -121,7 +116,7 @@ def test_within_distance_islands_boundaries_and_empty_partitions(client):
     same(vd.within_distance(with_empty(df, [0, 30, 0, 40, len(df) - 70]), 0.1, partition=False, check_ids=False), ref)
 
 
-def test_contiguity_queen_rook_border_length_tolerance(client):
+def test_contiguity_queen_rook_border_length_tolerance(dask_client):
     shapely = pytest.importorskip("shapely")
     dgpd = pytest.importorskip("dask_geopandas")
     gpd = pytest.importorskip("geopandas")
@@ -137,7 +132,7 @@ def test_contiguity_queen_rook_border_length_tolerance(client):
         np.testing.assert_allclose(w.perimeter, quiet(vicino.contiguity, frame, rule, **kw).perimeter, rtol=1e-12)
 
 
-def test_lag_standardize_and_moran_equal_in_memory(client):
+def test_lag_standardize_and_moran_equal_in_memory(dask_client):
     df = points(500, seed=4)
     # persisted, as the docs advise for a table used more than once: each use below
     # would otherwise build the links again
@@ -167,7 +162,7 @@ def test_lag_standardize_and_moran_equal_in_memory(client):
     np.testing.assert_array_equal(perm.permutation.draws, want.permutation.draws)
 
 
-def test_moran_on_asymmetric_weights_with_islands(client):
+def test_moran_on_asymmetric_weights_with_islands(dask_client):
     df = points(300, seed=6)
     v = pd.Series(np.sin(df["x"].to_numpy() * 7) + df["y"].to_numpy(), index=df.index)
     table = vd.within_distance(dd.from_pandas(df, npartitions=3), 0.07, npartitions=4, check_ids=False)
@@ -188,7 +183,7 @@ def test_moran_on_asymmetric_weights_with_islands(client):
     assert got.normality.variance == pytest.approx(want.normality.variance, rel=1e-12)
 
 
-def test_edge_table_to_parquet_and_islands_refused_by_row_standardization(client, tmp_path):
+def test_edge_table_to_parquet_and_islands_refused_by_row_standardization(dask_client, tmp_path):
     df = points(200, seed=8)
     table = vd.within_distance(dd.from_pandas(df, npartitions=2), 0.05, check_ids=False)
     ref = quiet(vicino.within_distance, df, 0.05)
@@ -202,7 +197,7 @@ def test_edge_table_to_parquet_and_islands_refused_by_row_standardization(client
     assert sorted(units["id"]) == sorted(df.index)  # islands listed too
 
 
-def test_worker_errors_come_back_as_the_same_vicino_errors(client):
+def test_worker_errors_come_back_as_the_same_vicino_errors(dask_client):
     df = points(100, seed=9)
     bad = df.copy()
     bad.iloc[60, 0] = np.nan
@@ -251,7 +246,7 @@ def test_worker_errors_come_back_as_the_same_vicino_errors(client):
         vicino.set_memory_limit(None)
 
 
-def test_readme_example_runs_and_equals_in_memory(client, tmp_path, monkeypatch):
+def test_readme_example_runs_and_equals_in_memory(dask_client, tmp_path, monkeypatch):
     import re
     from pathlib import Path
 
@@ -260,7 +255,7 @@ def test_readme_example_runs_and_equals_in_memory(client, tmp_path, monkeypatch)
     assert block is not None, "the README's Dask example moved; update this test"
     code = block.group(1).replace("Client(LocalCluster(n_workers=2, threads_per_worker=1))", "CLIENT")
     monkeypatch.chdir(tmp_path)
-    scope: dict = {"CLIENT": client}
+    scope: dict = {"CLIENT": dask_client}
     exec(compile(code, "README.md", "exec"), scope)
     ref = vicino.k_nearest(scope["frame"], 8).standardize("row")
     same(scope["links"], ref)
@@ -269,7 +264,7 @@ def test_readme_example_runs_and_equals_in_memory(client, tmp_path, monkeypatch)
     np.testing.assert_allclose(lagged.reindex(ref.ids), ref.lag(values), rtol=1e-12, atol=1e-12)
 
 
-def test_point_geometries_of_a_dask_geopandas_frame(client):
+def test_point_geometries_of_a_dask_geopandas_frame(dask_client):
     dgpd = pytest.importorskip("dask_geopandas")
     gpd = pytest.importorskip("geopandas")
     df = points(150, seed=12)

@@ -85,6 +85,12 @@ Delayed = Any  # dask.delayed.Delayed (untyped)
 
 
 # ---- small numeric helpers (vectorized) -------------------------------------------
+# exchanges of data between partitions: sources x destinations pieces up to _DIRECT (few tasks,
+# no shuffle machinery), Dask's shuffle beyond; hash buckets of about _BUCKET units (tens of MB each)
+_DIRECT = 4096
+_BUCKET = 2_000_000
+
+
 def _hilbert(x: np.ndarray, y: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     """Hilbert-curve index of each point on a 2^BITS grid over the box [lo, hi].
 
@@ -211,8 +217,31 @@ def _numbered(frame: pd.DataFrame, offset: int, lo: Any, hi: Any, cuts: Any) -> 
     return out
 
 
-def _settled(frame: pd.DataFrame, p: int) -> pd.DataFrame:
-    """A spatial partition's own units, in global position order."""
+def _cut(frame: pd.DataFrame, labels: np.ndarray, n: int) -> tuple[pd.DataFrame, ...]:
+    """The rows of ``frame`` split by ``labels`` (0 .. n-1), each piece in its original row order."""
+    order = np.argsort(labels, kind="stable")
+    cuts = np.searchsorted(labels[order], np.arange(n + 1))
+    return tuple(frame.iloc[order[cuts[q] : cuts[q + 1]]] for q in range(n))
+
+
+def _by_part(frame: pd.DataFrame, n: int) -> tuple[pd.DataFrame, ...]:
+    return _cut(frame, frame["_part"].to_numpy(), n)
+
+
+def _exchange(sources: Sequence[Any], split: Callable[..., tuple[pd.DataFrame, ...]], n: int, *args: Any) -> list[Any]:
+    """All-to-all exchange: ``split(source, *args)`` gives n pieces; destination q gets the q-th of every source."""
+    pieces = [dask.delayed(split)(source, *args) for source in sources]
+    return [[piece[q] for piece in pieces] for q in range(n)]
+
+
+def _direct(sources: int, destinations: int) -> bool:
+    """Whether an exchange is small enough to run as sources x destinations pieces (else a Dask shuffle)."""
+    return sources * destinations <= _DIRECT
+
+
+def _settled(given: pd.DataFrame | Sequence[pd.DataFrame], p: int) -> pd.DataFrame:
+    """A spatial partition's own units (one frame, or the pieces sent to it), in global position order."""
+    frame = given if isinstance(given, pd.DataFrame) else pd.concat(list(given), ignore_index=True)
     if "_part" in frame.columns or frame.index.name == "_part":
         parts = frame.index.to_numpy() if frame.index.name == "_part" else frame["_part"].to_numpy()
         if len(parts) and not (parts == p).all():
@@ -481,15 +510,18 @@ def _spread(
             else np.zeros(0)
         )
         numbered = [dask.delayed(_numbered)(r, int(o), lo, hi, cuts) for r, o in zip(read_parts, offsets, strict=True)]
-        meta = _numbered(_empty_units(id_dtype, read is _read_polygons).drop(columns="_pos"), 0, lo, hi, cuts)
-        spatial = dd.from_delayed(numbered, meta=meta, verify_meta=False).set_index(
-            "_part", divisions=tuple(range(parts_out + 1))
-        )
-        pieces = spatial.to_delayed()
-        if len(pieces) != parts_out:
-            raise InternalError(
-                f"the spatial shuffle gave {len(pieces)} partitions for {parts_out}; please report this"
+        if _direct(len(numbered), parts_out):
+            pieces = _exchange(numbered, _by_part, parts_out, parts_out)
+        else:
+            meta = _numbered(_empty_units(id_dtype, read is _read_polygons).drop(columns="_pos"), 0, lo, hi, cuts)
+            spatial = dd.from_delayed(numbered, meta=meta, verify_meta=False).set_index(
+                "_part", divisions=tuple(range(parts_out + 1))
             )
+            pieces = spatial.to_delayed()
+            if len(pieces) != parts_out:
+                raise InternalError(
+                    f"the spatial shuffle gave {len(pieces)} partitions for {parts_out}; please report this"
+                )
         units = [dask.delayed(_settled)(piece, p) for p, piece in enumerate(pieces)]
     else:
         units = [dask.delayed(_numbered)(r, int(o), None, None, None) for r, o in zip(read_parts, offsets, strict=True)]
@@ -505,14 +537,33 @@ def _id_column(frame: pd.DataFrame) -> pd.Series:
     return frame["_id"]
 
 
+def _id_frame(frame: pd.DataFrame) -> pd.DataFrame:
+    return frame[["_id"]]
+
+
+def _repeated(pieces: Sequence[pd.DataFrame]) -> pd.Series:
+    """The ids that appear more than once among one hash bucket's pieces, with their counts."""
+    ids = pd.concat([p["_id"] for p in pieces], ignore_index=True)
+    counts = ids.value_counts()
+    return counts[counts > 1]
+
+
 def _check_unique(units: list[Delayed], n: int, id_dtype: Any) -> None:
-    """Ids unique across partitions (one hash shuffle of the ids; within a partition they were checked on reading)."""
-    meta = pd.Series([], dtype=id_dtype, name="_id")
-    ids = dd.from_delayed([dask.delayed(_id_column)(u) for u in units], meta=meta, verify_meta=False)
-    distinct = int(ids.drop_duplicates(split_out=max(1, len(units))).size.compute())
-    if distinct != n:
-        counts = ids.value_counts()
+    """Ids unique across partitions (one hash exchange of the ids; within a partition they were checked on reading)."""
+    buckets = max(1, min(-(-n // _BUCKET), len(units)))
+    if _direct(len(units), buckets):
+        ids = [dask.delayed(_id_frame)(u) for u in units]
+        groups = [ids] if buckets == 1 else _exchange(ids, _split, buckets, buckets)
+        found = dask.compute(*[dask.delayed(_repeated)(g) for g in groups])
+        repeated = pd.concat(list(found)) if found else pd.Series([], dtype=np.int64)
+    else:
+        meta = pd.Series([], dtype=id_dtype, name="_id")
+        column = dd.from_delayed([dask.delayed(_id_column)(u) for u in units], meta=meta, verify_meta=False)
+        if int(column.drop_duplicates(split_out=max(1, len(units))).size.compute()) == n:
+            return
+        counts = column.value_counts()
         repeated = counts[counts > 1].compute()
+    if len(repeated):
         raise IdError(
             f"ids must be unique, but {len(repeated)} id(s) repeat: {examples(repeated.index)}; "
             "pass ids= with unique labels, or reset the index"
@@ -630,6 +681,7 @@ class EdgeTable:
         edge_meta: pd.DataFrame,
         unit_meta: pd.DataFrame,
         keep: tuple[Any, ...] = (),
+        needs: dict[tuple[int, int], Any] | None = None,
     ) -> None:
         self._parts = parts
         self._unit_parts = unit_parts
@@ -643,6 +695,13 @@ class EdgeTable:
         self._unit_meta = unit_meta
         # persisted pieces the lazy partitions read: the cluster keeps them while this table lives
         self._keep = keep
+        # (p, q): the positions of q's units that p's links point to; they outlive a change of weights
+        self._needs = needs
+
+    def _needed(self) -> dict[tuple[int, int], Any]:
+        if self._needs is None:
+            self._needs = {(p, q): dask.delayed(_needs)(self._parts[p], q) for p, q in sorted(self._pairs)}
+        return self._needs
 
     def _with(self, parts: list[Delayed], step: Step) -> EdgeTable:
         return EdgeTable(
@@ -657,6 +716,7 @@ class EdgeTable:
             self._edge_meta,
             self._unit_meta,
             self._keep,
+            self._needs,
         )
 
     @property
@@ -681,8 +741,17 @@ class EdgeTable:
 
         Pass ``table.persist().edges`` to ``distributed.progress`` to watch the build.
         """
-        parts = _client_persist(*self._parts)
-        units = _client_persist(*self._unit_parts)
+        needs = self._needed()
+        # one persist: the pieces share the build tasks; the counts are kept so that to_weights()
+        # and halo_sizes() of the persisted table do not build again
+        k = len(self._parts)
+        lazy = [d for d in (*self._duplicates, *self._halos) if dask.is_dask_collection(d)]
+        done = _client_persist(*self._parts, *self._unit_parts, *needs.values(), *lazy)
+        parts, units, needed = done[:k], done[k : 2 * k], done[2 * k : 2 * k + len(needs)]
+        kept = iter(done[2 * k + len(needs) :])
+        dups, halos = (
+            [next(kept) if dask.is_dask_collection(d) else d for d in ds] for ds in (self._duplicates, self._halos)
+        )
         out = EdgeTable(
             parts,
             units,
@@ -690,11 +759,12 @@ class EdgeTable:
             self._pairs,
             self.n,
             self._id_dtype,
-            self._duplicates,
-            self._halos,
+            dups,
+            halos,
             self._edge_meta,
             self._unit_meta,
             self._keep,
+            dict(zip(needs, needed, strict=True)),
         )
         return out
 
@@ -712,8 +782,10 @@ class EdgeTable:
         Collects every link on the client: use it when the matrix fits in
         memory (about 24 bytes per link plus the ids).
         """
-        units = pd.concat(list(dask.compute(*self._unit_parts)), ignore_index=True).sort_values("_pos")
-        edges = pd.concat(list(dask.compute(*self._parts)), ignore_index=True)
+        # one compute: the units, links and duplicate counts share the build tasks of a lazy table
+        got_units, got_edges, got_dups = dask.compute(self._unit_parts, self._parts, self._duplicates)
+        units = pd.concat(list(got_units), ignore_index=True).sort_values("_pos")
+        edges = pd.concat(list(got_edges), ignore_index=True)
         if len(units) != self.n or not (units["_pos"].to_numpy() == np.arange(self.n)).all():
             raise InternalError("the distributed units do not cover every position once; please report this")
         edges = edges.sort_values(["_spos", "_tpos"], kind="stable")
@@ -729,9 +801,7 @@ class EdgeTable:
         ]
         links = {c: edges[c].to_numpy(dtype=np.float64) for c in fact}
         unit_facts = {c: units[c].to_numpy(dtype=np.float64) for c in units.columns if c not in ("_id", "_pos")}
-        duplicates = (
-            sum(int(d) for d in dask.compute(*self._duplicates)) if self.recipe[0].action != "contiguity" else 0
-        )
+        duplicates = sum(int(d) for d in got_dups) if self.recipe[0].action != "contiguity" else 0
         if duplicates:
             warnings.warn(
                 f"{duplicates} units share their location with at least one other unit; they are at "
@@ -999,10 +1069,39 @@ def _unit_home(units: pd.DataFrame, p: int) -> pd.DataFrame:
     return pd.DataFrame({"_id": units["_id"], "_pos": units["_pos"], "_part": np.full(len(units), p, np.int64)})
 
 
-def _checked_home(frame: pd.DataFrame, p: int, value_columns: list[Any]) -> pd.DataFrame:
+def _split(frame: pd.DataFrame, buckets: int) -> tuple[pd.DataFrame, ...]:
+    """Rows split into hash buckets of their ``_id`` (the same id lands in the same bucket in every process)."""
+    hashed = pd.util.hash_pandas_object(frame["_id"], index=False).to_numpy()
+    return _cut(frame, (hashed % np.uint64(buckets)).astype(np.int64), buckets)
+
+
+def _value_frame(part: pd.DataFrame, id_dtype: Any) -> pd.DataFrame:
+    """One partition of the values with its index as an ``_id`` column of the units' id dtype."""
+    ids = part.index
+    if ids.dtype != id_dtype:
+        try:
+            converted = ids.astype(id_dtype)
+            # only a lossless conversion (int32 to int64, float 3.0 to int 3): other ids stay and are unknown
+            ids = converted if bool(np.asarray(converted == ids, dtype=bool).all()) else ids
+        except (TypeError, ValueError, OverflowError):
+            pass
+    flat = part.reset_index(drop=True)
+    flat.insert(0, "_id", pd.Series(ids, index=flat.index))
+    return flat
+
+
+def _joined(units: Sequence[pd.DataFrame], values: Sequence[pd.DataFrame], nparts: int) -> tuple[pd.DataFrame, ...]:
+    """One bucket: its units joined with their values by id, then split by the units' spatial partition."""
+    both = pd.concat(units, ignore_index=True).merge(
+        pd.concat(values, ignore_index=True), on="_id", how="outer", indicator=True
+    )
+    part = both["_part"].fillna(0).to_numpy().astype(np.int64)  # unknown ids: reported by partition 0
+    return _cut(both, part, nparts)
+
+
+def _checked_home(pieces: Sequence[pd.DataFrame], p: int, value_columns: list[Any]) -> pd.DataFrame:
     """A partition's own units with their values, in position order; missing or unknown ids refused."""
-    if frame.index.name == "_part":
-        frame = frame.reset_index(drop=True)
+    frame = pd.concat(pieces, ignore_index=True)  # the shuffled route has "_part" as index: dropped
     both = frame["_merge"].astype(str)
     unknown = frame.loc[both == "right_only", "_id"]
     if len(unknown):
@@ -1031,22 +1130,42 @@ def _checked_home(frame: pd.DataFrame, p: int, value_columns: list[Any]) -> pd.D
 
 
 def _homes(values: Any, table: EdgeTable) -> tuple[list[Delayed], list[Any]]:
-    """Each value moved to its unit's spatial partition: a hash join of n rows, then one shuffle of n rows."""
+    """Each value moved to its unit's spatial partition, in one exchange of n rows.
+
+    The unit ids (by spatial partition) and the values (by their own
+    partitions) go to the same hash buckets of the id, about ``_BUCKET``
+    units each; each bucket joins its ids with their values and sends every
+    row to its unit's partition: a few tasks per partition. Beyond
+    ``_DIRECT`` pieces, a Dask join and shuffle do the same.
+    """
     frame, _ = _as_frame(values)
     columns = list(frame.columns)
+    parts = frame.to_delayed()
+    nparts, dtype = table.npartitions, table._id_dtype
+    buckets = max(1, min(-(-table.n // _BUCKET), max(len(parts), nparts)))
+    if _direct(len(parts) + nparts, buckets) and _direct(buckets, nparts):
+        units = [dask.delayed(_unit_home)(u, p) for p, u in enumerate(table._unit_parts)]
+        given = [dask.delayed(_value_frame)(v, dtype) for v in parts]
+        groups = [[*units, *given]]
+        if buckets > 1:
+            by_units, by_values = (_exchange(x, _split, buckets, buckets) for x in (units, given))
+            groups = [a + b for a, b in zip(by_units, by_values, strict=True)]
+        joined = [dask.delayed(_joined)(g[: len(units)], g[len(units) :], nparts) for g in groups]
+        return [dask.delayed(_checked_home)([j[p] for j in joined], p, columns) for p in range(nparts)], columns
     meta = pd.DataFrame(
-        {"_id": pd.Series([], dtype=table._id_dtype), "_pos": np.zeros(0, np.int64), "_part": np.zeros(0, np.int64)}
+        {"_id": pd.Series([], dtype=dtype), "_pos": np.zeros(0, np.int64), "_part": np.zeros(0, np.int64)}
     )
     homes = dd.from_delayed(
         [dask.delayed(_unit_home)(u, p) for p, u in enumerate(table._unit_parts)], meta=meta, verify_meta=False
     )
-    flat = frame.reset_index()
-    flat = flat.rename(columns={flat.columns[0]: "_id"})
-    joined = homes.merge(flat, on="_id", how="outer", indicator=True)
-    joined["_part"] = joined["_part"].fillna(0).astype(np.int64)
-    spread = joined.set_index("_part", divisions=tuple(range(table.npartitions + 1)))
+    flat = dd.from_delayed(
+        [dask.delayed(_value_frame)(v, dtype) for v in parts], meta=_value_frame(frame._meta, dtype), verify_meta=False
+    )
+    joined_all = homes.merge(flat, on="_id", how="outer", indicator=True)
+    joined_all["_part"] = joined_all["_part"].fillna(0).astype(np.int64)
+    spread = joined_all.set_index("_part", divisions=tuple(range(nparts + 1)))
     pieces = spread.to_delayed()
-    return [dask.delayed(_checked_home)(piece, p, columns) for p, piece in enumerate(pieces)], columns
+    return [dask.delayed(_checked_home)([piece], p, columns) for p, piece in enumerate(pieces)], columns
 
 
 def _needs(edges: pd.DataFrame, q: int) -> np.ndarray:
@@ -1062,7 +1181,7 @@ def _gathered(table: EdgeTable, homes: list[Delayed]) -> list[Delayed]:
     out = []
     for p in range(table.npartitions):
         lenders = sorted(q for (a, q) in table._pairs if a == p)
-        got = [dask.delayed(_take)(homes[q], dask.delayed(_needs)(table._parts[p], q)) for q in lenders]
+        got = [dask.delayed(_take)(homes[q], table._needed()[(p, q)]) for q in lenders]
         out.append(dask.delayed(_concat)([homes[p], *got], ("_pos",)))
     return out
 

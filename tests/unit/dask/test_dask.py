@@ -15,9 +15,13 @@ import pytest
 
 import vicino
 
+dask = pytest.importorskip("dask")
 dd = pytest.importorskip("dask.dataframe")
 distributed = pytest.importorskip("distributed")
 vd = pytest.importorskip("vicino.dask")
+
+# one pytest-xdist worker runs every Dask test, so the session shares one cluster
+pytestmark = pytest.mark.xdist_group("dask")
 
 
 def quiet(fn, *args, **kwargs):
@@ -58,11 +62,12 @@ def with_empty(df, sizes):
 
 def test_k_nearest_equals_in_memory_with_duplicates_and_rounds(dask_client):
     df = points(600)
-    for k, parts in ((4, 4), (9, 12)):  # 12 spatial partitions of ~50 units: halos cross partitions
-        table = vd.k_nearest(dd.from_pandas(df, npartitions=3), k, npartitions=parts)
-        same(table, quiet(vicino.k_nearest, df, k))
-        assert table.npartitions == parts
-        assert sum(table.halo_sizes()) > 0
+    # 12 spatial partitions of ~50 units: halos cross partitions, in more than one round
+    # (k = 4 on 4 partitions: test_large_exchanges_go_through_a_dask_shuffle_or_hash_buckets)
+    table = vd.k_nearest(dd.from_pandas(df, npartitions=3), 9, npartitions=12).persist()
+    same(table, quiet(vicino.k_nearest, df, 9))
+    assert table.npartitions == 12
+    assert sum(table.halo_sizes()) > 0
 
 
 def test_k_nearest_empty_partitions_and_partitions_smaller_than_k(dask_client):
@@ -162,6 +167,38 @@ def test_lag_standardize_and_moran_equal_in_memory(dask_client):
     np.testing.assert_array_equal(perm.permutation.draws, want.permutation.draws)
 
 
+def test_large_exchanges_go_through_a_dask_shuffle_or_hash_buckets(dask_client, monkeypatch):
+    # exchanges of more than `_DIRECT` pieces run as a Dask join and shuffle, and more than
+    # `_BUCKET` units split into hash buckets of the id: both routes equal the in-memory results
+    df = points(300, seed=21)
+    ref = quiet(vicino.k_nearest, df, 4)
+    v = pd.Series(np.cos(df["x"].to_numpy() * 5) + df["y"].to_numpy(), index=df.index)
+    given = dd.from_pandas(v.sample(frac=1.0, random_state=3), npartitions=3)
+    ids = [dask.delayed(pd.DataFrame)({"_id": np.arange(k, k + 40)}) for k in (0, 100, 39)]  # 39 twice
+    monkeypatch.setattr(vd, "_DIRECT", 0)
+    table = vd.k_nearest(dd.from_pandas(df, npartitions=2), 4, npartitions=3).persist()  # ids checked
+    same(table, ref)
+    np.testing.assert_allclose(vd.lag(given, table).compute().reindex(df.index), ref.lag(v), rtol=1e-12, atol=1e-12)
+    with pytest.raises(vicino.IdError, match=r"1 id\(s\) repeat: 39"):
+        vd._check_unique(ids, 120, np.int64)
+    monkeypatch.setattr(vd, "_DIRECT", 4096)
+    monkeypatch.setattr(vd, "_BUCKET", 70)
+    np.testing.assert_allclose(vd.lag(given, table).compute().reindex(df.index), ref.lag(v), rtol=1e-12, atol=1e-12)
+    got, want = vd.moran(given, table), vicino.moran(v, ref, permutations=0)
+    assert got.statistic == pytest.approx(want.statistic, rel=1e-12)
+    assert got.randomization.variance == pytest.approx(want.randomization.variance, rel=1e-12)
+    with pytest.raises(vicino.IdError, match=r"1 id\(s\) repeat: 39"):
+        vd._check_unique(ids, 120, np.int64)
+    vd._check_unique(ids[:2], 80, np.int64)  # no repeat: no error
+    # int32 ids in the values meet int64 unit ids; an id that is no unit is refused
+    narrow = v.set_axis(v.index.astype(np.int32))
+    np.testing.assert_allclose(
+        vd.lag(dd.from_pandas(narrow, npartitions=2), table).compute().reindex(df.index), ref.lag(v), rtol=1e-12
+    )
+    with pytest.raises(vicino.IdError, match="not an id"):
+        vd.lag(dd.from_pandas(pd.concat([v, pd.Series([1.0], index=[-1])]), npartitions=2), table).compute()
+
+
 def test_moran_on_asymmetric_weights_with_islands(dask_client):
     df = points(300, seed=6)
     v = pd.Series(np.sin(df["x"].to_numpy() * 7) + df["y"].to_numpy(), index=df.index)
@@ -185,7 +222,7 @@ def test_moran_on_asymmetric_weights_with_islands(dask_client):
 
 def test_edge_table_to_parquet_and_islands_refused_by_row_standardization(dask_client, tmp_path):
     df = points(200, seed=8)
-    table = vd.within_distance(dd.from_pandas(df, npartitions=2), 0.05, check_ids=False)
+    table = vd.within_distance(dd.from_pandas(df, npartitions=2), 0.05, check_ids=False).persist()
     ref = quiet(vicino.within_distance, df, 0.05)
     table.to_parquet(tmp_path / "links")
     back = pd.read_parquet(tmp_path / "links").sort_values(["source", "target"]).reset_index(drop=True)
@@ -232,7 +269,7 @@ def test_worker_errors_come_back_as_the_same_vicino_errors(dask_client):
         vd.k_nearest(dd.from_pandas(df, npartitions=2), 3, ids="nowhere")
     with pytest.raises(vicino.InvalidParameterError, match="contiguity rule"):
         vd.contiguity(dd.from_pandas(df, npartitions=2), "bishop")
-    table = vd.k_nearest(dd.from_pandas(df, npartitions=2), 3)
+    table = vd.k_nearest(dd.from_pandas(df, npartitions=2), 3).persist()
     v = pd.Series(np.arange(len(df), dtype=float), index=df.index)
     with pytest.raises(vicino.IdError, match="without values"):
         vd.lag(dd.from_pandas(v.iloc[:-3], npartitions=2), table).compute()

@@ -1,12 +1,19 @@
 """Shared set-up of the test suite: the oracles module is importable from every test folder,
-and the Dask tests share one 2-process LocalCluster."""
+the Dask tests share one 2-process LocalCluster, and pytest-xdist workers get one thread each."""
 
+import os
 import sys
 from pathlib import Path
 
 import pytest
 
 sys.path.insert(0, str(Path(__file__).parent))
+
+if os.environ.get("PYTEST_XDIST_WORKER"):
+    # several pytest-xdist workers share the cores: one thread each for the core's pool and for BLAS,
+    # or idle threads spin against the other workers (the thread-count tests set their own counts)
+    for _name in ("RAYON_NUM_THREADS", "OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        os.environ.setdefault(_name, "1")
 
 
 @pytest.fixture(scope="session")
@@ -24,3 +31,11 @@ def dask_client():
         yield client
     client.close()
     cluster.close()
+
+
+def pytest_collection_modifyitems(config, items):
+    """The Dask tests (one pytest-xdist group across their modules: one cluster) go first, as they take
+    longest; modules with a costly module fixture (a demo run, a notebook run) are groups of their own."""
+    group = [item.get_closest_marker("xdist_group") for item in items]
+    order = {id(item): g is None or g.args[0] != "dask" for item, g in zip(items, group)}
+    items.sort(key=lambda item: order[id(item)])

@@ -266,7 +266,7 @@ def test_voronoi_rook_is_subset_of_queen_and_symmetric():
 # ---------------------------------------------------------------------------
 # T-junctions
 # ---------------------------------------------------------------------------
-@pytest.mark.parametrize("n,seed,step", [(300, 31, 0.003), (1000, 32, 0.002)])
+@pytest.mark.parametrize("n,seed,step", [(300, 31, 0.003), (700, 32, 0.002)])
 def test_densified_voronoi_t_junctions(n, seed, step):
     """Even cells densified: their new vertices sit (nearly) on the odd neighbours' edges."""
     cells = voronoi(n, seed)

@@ -11,6 +11,9 @@ dd = pytest.importorskip("dask.dataframe")
 distributed = pytest.importorskip("distributed")
 vd = pytest.importorskip("vicino.dask")
 
+# one pytest-xdist worker runs every Dask test, so the session shares one cluster
+pytestmark = pytest.mark.xdist_group("dask")
+
 
 def test_k_nearest_within_distance_and_moran_against_scipy_and_numpy(dask_client):
     rng = np.random.default_rng(11)

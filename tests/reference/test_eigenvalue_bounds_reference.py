@@ -232,11 +232,28 @@ def c3_kron_path(m):
     return sp.csr_array(sp.kron(c3, path))
 
 
+def c3_kron_path_eigenvalues(m):
+    """Closed form: the eigenvalues of a Kronecker product are the products of the factors' eigenvalues
+    (Horn and Johnson 1991, Topics in Matrix Analysis, Thm 4.2.12); C3 has the cube roots of unity, the
+    tridiagonal Toeplitz path + 2 I has 2 + 2 cos(pi j / (m + 1)), j = 1..m (Smith 1985, Numerical
+    Solution of Partial Differential Equations, 3rd ed., p. 55)."""
+    mu = 2 + 2 * np.cos(np.pi * np.arange(1, m + 1) / (m + 1))
+    return np.concatenate([mu * np.exp(2j * np.pi * k / 3) for k in range(3)])
+
+
+@pytest.mark.parametrize("m", [5, 40])
+def test_closed_form_of_c3_kron_path_matches_numpy(m):
+    ev = c3_kron_path_eigenvalues(m)
+    got = np.linalg.eigvals(c3_kron_path(m).toarray())  # reference: numpy.linalg.eigvals
+    gap = np.abs(ev[:, None] - got[None, :])
+    assert gap.min(axis=1).max() < 1e-9 and gap.min(axis=0).max() < 1e-9
+
+
 def test_no_real_eigenvalue_in_reach_is_a_clear_convergence_error():
     # 1,200 units: above the size solved densely when Arnoldi does not settle
     a = c3_kron_path(400)
-    ev = np.linalg.eigvals(a.toarray())  # numpy check of the setup
-    assert abs(ev[np.argmin(ev.real)].imag) > 0.1
+    ev = c3_kron_path_eigenvalues(400)
+    assert abs(ev[np.argmin(ev.real)].imag) > 0.1  # the leftmost eigenvalues are complex
     with pytest.raises(vicino.ConvergenceError, match="inside the spectrum") as err:
         vicino.from_matrix(a).eigenvalue_bounds()
     assert "spectral_radius()" in str(err.value)  # says what to do instead
@@ -244,7 +261,9 @@ def test_no_real_eigenvalue_in_reach_is_a_clear_convergence_error():
 
 def test_real_eigenvalue_inside_the_spectrum_of_a_smaller_block_is_found_densely():
     a = c3_kron_path(200)  # 600 units
-    lo, hi = real_ends(a.toarray())  # reference: numpy.linalg.eigvals
+    ev = c3_kron_path_eigenvalues(200)
+    real = ev[np.abs(ev.imag) < 1e-9].real  # the real eigenvalues: those of the path + 2 I (closed form)
+    lo, hi = real.min(), real.max()
     b = vicino.from_matrix(a).eigenvalue_bounds()
     assert b.lambda_min == pytest.approx(lo, abs=1e-9)
     assert b.lambda_max == pytest.approx(hi, rel=1e-9)

@@ -16,6 +16,8 @@ import pytest
 import vicino
 from vicino import demo
 
+# one pytest-xdist worker runs this module, so its demo runs once
+pytestmark = pytest.mark.xdist_group("demo")
 ROOT = Path(__file__).resolve().parents[3]
 
 

@@ -19,6 +19,8 @@ from oracles import brute_euclidean
 from vicino import demo
 
 ROOT = Path(__file__).resolve().parents[3]
+# one pytest-xdist worker runs this module, so its notebook runs once
+pytestmark = pytest.mark.xdist_group("notebook")
 NOTEBOOKS = sorted((ROOT / "notebooks-demo").glob("*.ipynb"))
 _RUNS: dict[Path, tuple[str, Path]] = {}
 

@@ -36,6 +36,9 @@ def dask_client():
 def pytest_collection_modifyitems(config, items):
     """The Dask tests (one pytest-xdist group across their modules: one cluster) go first, as they take
     longest; modules with a costly module fixture (a demo run, a notebook run) are groups of their own."""
-    group = [item.get_closest_marker("xdist_group") for item in items]
-    order = {id(item): g is None or g.args[0] != "dask" for item, g in zip(items, group)}
-    items.sort(key=lambda item: order[id(item)])
+
+    def later(item):
+        group = item.get_closest_marker("xdist_group")
+        return group is None or group.args[0] != "dask"
+
+    items.sort(key=later)

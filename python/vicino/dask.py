@@ -533,10 +533,6 @@ def _spread(
     return _Units(units, [int(b[0]) for b in boxes], [b[1] for b in boxes], [b[2] for b in boxes], n, id_dtype)
 
 
-def _id_column(frame: pd.DataFrame) -> pd.Series:
-    return frame["_id"]
-
-
 def _id_frame(frame: pd.DataFrame) -> pd.DataFrame:
     return frame[["_id"]]
 
@@ -554,11 +550,10 @@ def _check_unique(units: list[Delayed], n: int, id_dtype: Any) -> None:
     if _direct(len(units), buckets):
         ids = [dask.delayed(_id_frame)(u) for u in units]
         groups = [ids] if buckets == 1 else _exchange(ids, _split, buckets, buckets)
-        found = dask.compute(*[dask.delayed(_repeated)(g) for g in groups])
-        repeated = pd.concat(list(found)) if found else pd.Series([], dtype=np.int64)
+        repeated = pd.concat(list(dask.compute(*[dask.delayed(_repeated)(g) for g in groups])))
     else:
-        meta = pd.Series([], dtype=id_dtype, name="_id")
-        column = dd.from_delayed([dask.delayed(_id_column)(u) for u in units], meta=meta, verify_meta=False)
+        meta = pd.DataFrame({"_id": pd.Series([], dtype=id_dtype)})
+        column = dd.from_delayed([dask.delayed(_id_frame)(u) for u in units], meta=meta, verify_meta=False)["_id"]
         if int(column.drop_duplicates(split_out=max(1, len(units))).size.compute()) == n:
             return
         counts = column.value_counts()

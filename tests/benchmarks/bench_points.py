@@ -21,6 +21,9 @@ Steps, each on the same data for both routes:
 * moran: 999 permutations; a numpy loop that permutes the values and
   recomputes I with the scipy matrix, vs vicino.moran (which also computes
   the analytic moments).
+* moran analytic: Moran's I with its normality and randomization variances
+  (no permutations); scipy/numpy: z @ (W @ z), S0, S1 from W + W.T, S2 from
+  the row and column sums, the kurtosis, vs vicino.moran(permutations=0).
 * spectral radius: scipy.sparse.linalg.eigsh(k=1) vs Weights.spectral_radius()
   on symmetric distance-band weights (about 8 neighbours per unit).
 Order (--orders): "drawn" keeps the points in the order drawn (uniform
@@ -109,6 +112,22 @@ CHILD = textwrap.dedent(
                 draws[r] = n / s0 * (zp @ (m @ zp)) / zz
             return draws
         routes = (numpy_loop, lambda: vicino.moran(x, w, permutations=R, seed=1))
+    elif step == "moran0":
+        w = vicino.k_nearest(pts, k).standardize("row"); m = w.to_scipy()
+        x = pts[:, 0] + rng.normal(0, 0.5, n)
+        def scipy_moments():
+            z = x - x.mean(); s0 = m.sum(); zz = z @ z
+            i = n / s0 * (z @ (m @ z)) / zz
+            s1 = 0.5 * ((m + m.T).power(2)).sum()
+            s2 = ((np.asarray(m.sum(axis=1)).ravel() + np.asarray(m.sum(axis=0)).ravel()) ** 2).sum()
+            b2 = n * (z**4).sum() / zz**2
+            nn = float(n)
+            var_norm = (nn * nn * s1 - nn * s2 + 3 * s0 * s0) / ((nn * nn - 1) * s0 * s0) - 1 / (nn - 1) ** 2
+            var_rand = (nn * ((nn * nn - 3 * nn + 3) * s1 - nn * s2 + 3 * s0 * s0)
+                        - b2 * ((nn * nn - nn) * s1 - 2 * nn * s2 + 6 * s0 * s0)) / (
+                (nn - 1) * (nn - 2) * (nn - 3) * s0 * s0) - 1 / (nn - 1) ** 2
+            return i, var_norm, var_rand
+        routes = (scipy_moments, lambda: vicino.moran(x, w, permutations=0))
     elif step == "spectral":
         radius = np.sqrt(k / (np.pi * n))
         w = vicino.within_distance(pts, radius); m = w.to_scipy()
@@ -136,6 +155,7 @@ LABEL = {
     "lag": "lag",
     "lag4": "lag 4 columns",
     "moran": "moran 999 perm",
+    "moran0": "moran analytic",
     "spectral": "spectral radius",
 }
 
@@ -159,7 +179,7 @@ def main() -> None:
     ap.add_argument(
         "--steps",
         nargs="+",
-        default=["knn", "within", "idw16", "kernel", "lag", "lag4", "spectral", "moran"],
+        default=["knn", "within", "idw16", "kernel", "lag", "lag4", "moran0", "spectral", "moran"],
         help="steps to run",
     )
     ap.add_argument(
@@ -171,7 +191,7 @@ def main() -> None:
     )
     ap.add_argument("--no-memory", action="store_true", help="times only (skip the fresh processes for peak memory)")
     args = ap.parse_args()
-    steps = ("knn", "within", "idw16", "kernel", "lag", "lag4", "spectral")
+    steps = ("knn", "within", "idw16", "kernel", "lag", "lag4", "moran0", "spectral")
     plan = [(s, n) for n in args.sizes for s in steps] + [("moran", n) for n in args.moran_sizes]
     plan = [(s, n, o) for s, n in plan if s in args.steps for o in args.orders]
     print(
@@ -180,7 +200,7 @@ def main() -> None:
         flush=True,
     )
     for step, n, order in plan:
-        reps = args.reps * 10 if step in ("lag", "lag4") else (1 if step == "moran" and n >= 100_000 else args.reps)
+        reps = args.reps * 10 if step in ("lag", "lag4", "moran0") else (1 if step == "moran" and n >= 100_000 else args.reps)
         tb, tv = child("time", step, n, args.k, reps, order)
         if args.no_memory:
             mb = mv = {"peak_mb": float("nan")}

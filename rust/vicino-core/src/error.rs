@@ -8,6 +8,7 @@
 //! knows the units' ids (the Python binding) can name the ids without
 //! parsing the text.
 
+use rayon::prelude::*;
 use std::cell::RefCell;
 use std::fmt;
 use thiserror::Error;
@@ -129,7 +130,11 @@ impl fmt::Display for Units {
 
 impl Units {
     /// The first few positions for which `bad` holds, and how many there are.
-    pub fn find(len: usize, bad: impl Fn(usize) -> bool) -> Units {
+    pub fn find(len: usize, bad: impl Fn(usize) -> bool + Sync) -> Units {
+        // the usual answer is none: look for one in parallel first
+        if len >= 1 << 16 && !(0..len).into_par_iter().any(&bad) {
+            return Units { first: Vec::new(), count: 0 };
+        }
         let mut count = 0;
         let mut first = Vec::new();
         for i in 0..len {

@@ -161,7 +161,7 @@ impl Frame {
 /// overflow; statistics are invariant to the scale of W. Returns the
 /// rescaled matrix (None when not needed) and e (0 when not needed).
 pub fn moderate(w: CsrRef<'_>) -> (Option<Csr>, i32) {
-    let top = w.data().iter().copied().fold(0.0f64, f64::max);
+    let top = w.data().par_iter().copied().fold(|| 0.0f64, f64::max).reduce(|| 0.0, f64::max);
     if !(top > 0.0) {
         return (None, 0);
     }

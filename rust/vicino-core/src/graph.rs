@@ -101,8 +101,9 @@ pub fn health(w: CsrRef<'_>, guard: &Guard) -> Result<Health> {
             (None, y) => y,
         }
     }
-    let (self_links, one_way, max_asymmetry): Acc = w.fold_reverse(
-        || (0, 0, None),
+    // counts, and a maximum with its own tie-break: the order of the visits does not matter
+    let (self_links, one_way, max_asymmetry): Acc = w.fold_reverse_by_target(
+        |_, _| (0, 0, None),
         |acc, i, j, x, back| {
             if i == j {
                 acc.0 += 1;
@@ -114,6 +115,7 @@ pub fn health(w: CsrRef<'_>, guard: &Guard) -> Result<Health> {
                 acc.2 = better(acc.2, Some((d, i.min(j), i.max(j))));
             }
         },
+        |acc, _, _| acc,
         |a, b| (a.0 + b.0, a.1 + b.1, better(a.2, b.2)),
     );
     guard.check()?;

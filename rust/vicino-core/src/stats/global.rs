@@ -74,25 +74,38 @@ pub fn centred(w: CsrRef<'_>, x: &[f64]) -> Result<Vec<f64>> {
     if !units.is_empty() {
         return Err(Error::NonFiniteValues { units });
     }
-    if x.iter().all(|&v| v == x[0]) {
+    // min and max are exact in any order, and the sums run over fixed blocks,
+    // so the result does not depend on the thread count
+    let (lo, hi) = x
+        .par_iter()
+        .fold(|| (f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)))
+        .reduce(|| (f64::INFINITY, f64::NEG_INFINITY), |(a, b), (c, d)| (a.min(c), b.max(d)));
+    if lo == hi {
         return Err(Error::ConstantValues);
     }
-    let e = pow2_exponent(x.iter().fold(0.0f64, |m, v| m.max(v.abs())));
+    let e = pow2_exponent(lo.abs().max(hi.abs()));
     let x0 = times_pow2(x[0], -e);
-    let mut z: Vec<f64> = x.iter().map(|&v| times_pow2(v, -e) - x0).collect();
+    let mut z: Vec<f64> = x.par_iter().map(|&v| times_pow2(v, -e) - x0).collect();
     // two passes: the second removes the rounding error of the first mean
     for _ in 0..2 {
-        let mean = z.iter().sum::<f64>() / n as f64;
-        z.iter_mut().for_each(|v| *v -= mean);
+        let mean = block_sum(&z, |v| v) / n as f64;
+        z.par_iter_mut().for_each(|v| *v -= mean);
     }
     // bring the largest |z| near 1 as well, so that z^4 neither overflows nor underflows
-    let top = z.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let top = z.par_iter().fold(|| 0.0f64, |m, v| m.max(v.abs())).reduce(|| 0.0, f64::max);
     if !(top > 0.0) {
         return Err(Error::ConstantValues);
     }
     let f = -pow2_exponent(top);
-    z.iter_mut().for_each(|v| *v = times_pow2(*v, f));
+    z.par_iter_mut().for_each(|v| *v = times_pow2(*v, f));
     Ok(z)
+}
+
+/// Sum of `f(v)` over `z`, in fixed blocks (in parallel), combined in order.
+pub fn block_sum(z: &[f64], f: impl Fn(f64) -> f64 + Sync) -> f64 {
+    const BLOCK: usize = 1 << 14;
+    let parts: Vec<f64> = z.par_chunks(BLOCK).map(|c| c.iter().map(|&v| f(v)).sum()).collect();
+    parts.iter().sum()
 }
 
 /// Counts of draws at least as extreme as `observed`, and the permutation p.
@@ -183,8 +196,8 @@ pub fn moran(
     if !(sums.s0 > 0.0) {
         return Err(Error::NoWeight { what: "Moran's I" });
     }
-    let m2: f64 = z.iter().map(|v| v * v).sum();
-    let m4: f64 = z.iter().map(|v| v.powi(4)).sum();
+    let m2 = block_sum(&z, |v| v * v);
+    let m4 = block_sum(&z, |v| v.powi(4));
     let nf = n as f64;
     let scale = nf / (sums.s0 * m2);
     // with draws, observed and permuted values alike are evaluated by the

@@ -97,22 +97,35 @@ impl QuadraticForm {
 }
 
 /// Weight sums of W without forming W + W^T: S1 = sum w_ij^2 + sum w_ij w_ji
-/// (the reverse weight found by binary search in row j, blocks of rows in
-/// parallel and combined in row order), S2 from the row and column sums.
-/// O(nnz log(max row)).
+/// and S2 = sum_j (w_j. + w_.j)^2, in one pass over the links grouped by
+/// their target ([`CsrRef::fold_reverse_by_target`]): each group of target
+/// rows finds the reverse weights and its column sums in its own rows, and
+/// adds its part of S0 and S2 from them. O(nnz log(max row)).
 pub fn sums(w: CsrRef<'_>) -> WeightSums {
-    let s0: f64 = w.data().iter().sum();
-    let (squares, cross) = w.fold_reverse(
-        || (0.0f64, 0.0f64),
-        |acc, _, _, x, back| {
-            acc.0 += x * x;
-            acc.1 += back.map_or(0.0, |b| x * b);
+    struct Group {
+        lo: usize,
+        squares: f64,
+        cross: f64,
+        cols: Vec<f64>,
+    }
+    let (s0, squares, cross, s2) = w.fold_reverse_by_target(
+        |lo, hi| Group { lo, squares: 0.0, cross: 0.0, cols: vec![0.0; hi - lo] },
+        |g, _, j, x, back| {
+            g.squares += x * x;
+            g.cross += back.map_or(0.0, |b| x * b);
+            g.cols[j - g.lo] += x;
         },
-        |a, b| (a.0 + b.0, a.1 + b.1),
+        |g, lo, hi| {
+            let (mut s0, mut s2) = (0.0, 0.0);
+            for (j, c) in (lo..hi).zip(&g.cols) {
+                let r: f64 = w.row(j).1.iter().sum();
+                s0 += r;
+                s2 += (r + c) * (r + c);
+            }
+            (s0, g.squares, g.cross, s2)
+        },
+        |a, b| (a.0 + b.0, a.1 + b.1, a.2 + b.2, a.3 + b.3),
     );
-    let rows = w.row_sums();
-    let cols = w.col_sums();
-    let s2 = rows.iter().zip(&cols).map(|(r, c)| (r + c) * (r + c)).sum();
     WeightSums { s0, s1: squares + cross, s2 }
 }
 
@@ -173,6 +186,37 @@ mod tests {
         let (a, b) = q.eval_local_pair(&y, &x);
         assert_eq!(a.to_bits(), q.eval_local(&y).to_bits());
         assert_eq!(b.to_bits(), q.eval_local(&x).to_bits());
+    }
+
+    #[test]
+    fn grouped_sums_equal_their_definitions_on_a_large_matrix() {
+        // 40,000 units of 3 scattered links each: above the parallel threshold,
+        // so the sums run over many target groups
+        let n = 40_000;
+        let w = Csr::from_rows(
+            (0..n)
+                .map(|i| {
+                    let mut r: Vec<(usize, f64)> =
+                        [1usize, 3, 8191].iter().map(|&a| ((i * a + 5) % n, 0.25 + (i % 5) as f64)).collect();
+                    r.retain(|e| e.0 != i);
+                    r.sort_unstable_by_key(|e| e.0);
+                    r.dedup_by_key(|e| e.0);
+                    r
+                })
+                .collect(),
+        );
+        let v = w.view();
+        // Cliff and Ord (1981): S1 = 1/2 sum_ij (w_ij + w_ji)^2 over W + W^T,
+        // S2 = sum_i (w_i. + w_.i)^2
+        let s = v.plus_transpose();
+        let s1: f64 = s.view().data().iter().map(|x| x * x).sum::<f64>() / 2.0;
+        let (rows, cols) = (v.row_sums(), v.col_sums());
+        let s2: f64 = rows.iter().zip(&cols).map(|(r, c)| (r + c) * (r + c)).sum();
+        let s0: f64 = v.data().iter().sum();
+        let got = sums(v);
+        for (a, b) in [(got.s0, s0), (got.s1, s1), (got.s2, s2)] {
+            assert!((a - b).abs() <= 1e-12 * b, "{a} vs {b}");
+        }
     }
 
     #[test]

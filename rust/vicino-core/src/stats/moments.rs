@@ -10,7 +10,7 @@
 //! of times, and gathering values from nearby addresses is several times
 //! faster than from random ones. O(n + nnz).
 
-use crate::csr::{locality_order, CsrRef};
+use crate::csr::{locality_order, merge_rows, CsrRef};
 
 /// Cliff-Ord weight sums.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -130,29 +130,42 @@ pub fn sums(w: CsrRef<'_>) -> WeightSums {
 }
 
 impl QuadraticForm {
-    /// The form of W: the upper triangle of W + W^T, units renumbered for locality.
+    /// The form of W: the upper triangle of W + W^T, units renumbered for
+    /// locality. The rows of W + W^T are merged from W and W^T as they are
+    /// needed, never stored: the extra memory is W^T and the form itself.
     pub fn new(w: CsrRef<'_>) -> Self {
-        let s = w.plus_transpose();
-        let sv = s.view();
+        let t = w.transpose();
+        let tv = t.view();
         let n = w.n();
-        let order = locality_order(n, |u| sv.row(u).0.iter().map(|&j| j as usize));
+        // row u of S = W + W^T: its columns in order, with s_uj
+        let merged = |u: usize, f: &mut dyn FnMut(i64, f64)| {
+            let ((ac, av), (bc, bv)) = (w.row(u), tv.row(u));
+            merge_rows(ac, av, bc, bv, |c, x, y| f(c, x.map_or(0.0, |x| x.1) + y.unwrap_or(0.0)));
+        };
+        let order = locality_order(n, |u| {
+            let mut cols = Vec::new();
+            merged(u, &mut |c, _| cols.push(c as usize));
+            cols.into_iter()
+        });
         let mut rank = vec![0u32; n];
         for (k, &u) in order.iter().enumerate() {
             rank[u as usize] = k as u32;
         }
-        let cap = sv.nnz() / 2 + n;
+        let cap = w.nnz() + n;
         let (mut qr, mut qc, mut qd) = (Vec::with_capacity(cap), Vec::with_capacity(cap), Vec::with_capacity(cap));
         for (i, &u) in order.iter().enumerate() {
-            let (c, v) = sv.row(u as usize);
-            for (&j, &x) in c.iter().zip(v) {
-                let j = rank[j as usize] as usize;
+            merged(u as usize, &mut |c, x| {
+                let j = rank[c as usize] as usize;
                 if j >= i {
                     qr.push(i as u32);
                     qc.push(j as u32);
                     qd.push(if j == i { 0.5 * x } else { x });
                 }
-            }
+            });
         }
+        qr.shrink_to_fit();
+        qc.shrink_to_fit();
+        qd.shrink_to_fit();
         QuadraticForm { order, rows: qr, cols: qc, data: qd }
     }
 }

@@ -200,7 +200,8 @@ def main() -> None:
         flush=True,
     )
     for step, n, order in plan:
-        reps = args.reps * 10 if step in ("lag", "lag4", "moran0") else (1 if step == "moran" and n >= 100_000 else args.reps)
+        fast, slow = step in ("lag", "lag4", "moran0"), step == "moran" and n >= 100_000
+        reps = args.reps * 10 if fast else (1 if slow else args.reps)
         tb, tv = child("time", step, n, args.k, reps, order)
         if args.no_memory:
             mb = mv = {"peak_mb": float("nan")}

@@ -291,6 +291,13 @@ pub fn merge_rows(
     }
 }
 
+/// Row u of A + B: each column stored in either, in order, with a_uj + b_uj.
+#[inline]
+pub fn sum_row(a: CsrRef<'_>, b: CsrRef<'_>, u: usize, mut f: impl FnMut(i64, f64)) {
+    let ((ac, av), (bc, bv)) = (a.row(u), b.row(u));
+    merge_rows(ac, av, bc, bv, |c, x, y| f(c, x.map_or(0.0, |x| x.1) + y.unwrap_or(0.0)));
+}
+
 /// Rows per block of the reverse-link scan.
 const REVERSE_BLOCK: usize = 4096;
 
@@ -500,10 +507,9 @@ impl<'a> CsrRef<'a> {
             parallel,
             || (),
             |_, i, cols, vals| {
-                let ((ac, av), (bc, bv)) = (self.row(i), tv.row(i));
-                merge_rows(ac, av, bc, bv, |c, x, y| {
+                sum_row(*self, tv, i, |c, x| {
                     cols.push(c);
-                    vals.push(x.map_or(0.0, |x| x.1) + y.unwrap_or(0.0));
+                    vals.push(x);
                 });
                 Ok(())
             },
@@ -526,14 +532,11 @@ impl<'a> CsrRef<'a> {
         }
     }
 
-    /// The weight w_ij, if the link i -> j is stored: a binary search in
-    /// row i, or for short rows a count of the columns below j, which has no
-    /// branch to mispredict.
+    /// The weight w_ij, if the link i -> j is stored: a binary search in row i.
     #[inline]
     pub fn get(&self, i: usize, j: usize) -> Option<f64> {
         let (c, v) = self.row(i);
-        let j = j as i64;
-        c.binary_search(&j).ok().map(|p| v[p])
+        c.binary_search(&(j as i64)).ok().map(|p| v[p])
     }
 
     /// Visit every link (i, j, w_ij) with the reverse weight w_ji (None when
@@ -657,7 +660,8 @@ impl<'a> CsrRef<'a> {
     }
 
     /// Whether j is a neighbour of i exactly when i is a neighbour of j
-    /// (the weights themselves may differ). O(nnz log(max row)), no allocation.
+    /// (the weights themselves may differ). O(nnz log(max row)); large
+    /// matrices take 16 bytes per link while the links are grouped by target.
     pub fn is_structurally_symmetric(&self) -> bool {
         self.fold_reverse_by_target(
             |_, _| true,

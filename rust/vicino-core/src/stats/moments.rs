@@ -10,7 +10,7 @@
 //! of times, and gathering values from nearby addresses is several times
 //! faster than from random ones. O(n + nnz).
 
-use crate::csr::{locality_order, merge_rows, CsrRef};
+use crate::csr::{locality_order, sum_row, CsrRef};
 
 /// Cliff-Ord weight sums.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -137,14 +137,9 @@ impl QuadraticForm {
         let t = w.transpose();
         let tv = t.view();
         let n = w.n();
-        // row u of S = W + W^T: its columns in order, with s_uj
-        let merged = |u: usize, f: &mut dyn FnMut(i64, f64)| {
-            let ((ac, av), (bc, bv)) = (w.row(u), tv.row(u));
-            merge_rows(ac, av, bc, bv, |c, x, y| f(c, x.map_or(0.0, |x| x.1) + y.unwrap_or(0.0)));
-        };
         let order = locality_order(n, |u| {
             let mut cols = Vec::new();
-            merged(u, &mut |c, _| cols.push(c as usize));
+            sum_row(w, tv, u, |c, _| cols.push(c as usize));
             cols.into_iter()
         });
         let mut rank = vec![0u32; n];
@@ -154,7 +149,7 @@ impl QuadraticForm {
         let cap = w.nnz() + n;
         let (mut qr, mut qc, mut qd) = (Vec::with_capacity(cap), Vec::with_capacity(cap), Vec::with_capacity(cap));
         for (i, &u) in order.iter().enumerate() {
-            merged(u as usize, &mut |c, x| {
+            sum_row(w, tv, u as usize, |c, x| {
                 let j = rank[c as usize] as usize;
                 if j >= i {
                     qr.push(i as u32);
